@@ -1,0 +1,92 @@
+//! `seam check`: analyse a design and report findings for people (human) and CI (json).
+
+use std::path::PathBuf;
+use std::process::ExitCode;
+use std::time::{Duration, Instant};
+
+use clap::{Args, ValueEnum};
+use codespan_reporting::term::termcolor::{ColorChoice, StandardStream};
+use seam_analysis::finding::{self, Finding, Severity};
+
+use crate::output;
+use crate::{project, worker};
+
+#[derive(Clone, Copy, ValueEnum)]
+pub enum Format {
+    Human,
+    Json,
+}
+
+#[derive(Clone, Copy, ValueEnum)]
+pub enum Color {
+    Auto,
+    Always,
+    Never,
+}
+
+#[derive(Args)]
+pub struct CheckArgs {
+    /// Files or folders to check (default: the design in seam.toml, else the current folder).
+    pub paths: Vec<PathBuf>,
+    /// seam.toml to use (default: the nearest one above the first path).
+    #[arg(long)]
+    pub config: Option<PathBuf>,
+    #[arg(long, value_enum, default_value = "human")]
+    pub format: Format,
+    #[arg(long, value_enum, default_value = "auto")]
+    pub color: Color,
+    /// Print only the summary line (human format).
+    #[arg(long)]
+    pub quiet: bool,
+    /// Print time spent per phase to stderr.
+    #[arg(long)]
+    pub timings: bool,
+    /// Per-file parse time limit in seconds.
+    #[arg(long, default_value_t = 60)]
+    pub parse_timeout: u64,
+    /// Parallel parse workers (default: number of cores).
+    #[arg(long)]
+    pub jobs: Option<usize>,
+}
+
+pub fn run(a: CheckArgs) -> ExitCode {
+    let t0 = Instant::now();
+    let proj = match project::load(&a.paths, a.config.as_deref()) {
+        Ok(p) => p,
+        Err(e) => return super::usage_error(e.0),
+    };
+    let jobs = a.jobs.unwrap_or_else(|| std::thread::available_parallelism().map(|n| n.get()).unwrap_or(2));
+    let t_load = t0.elapsed();
+    let models = worker::parse_all(&proj.jobs, proj.macros.clone(), &proj.options, Duration::from_secs(a.parse_timeout), jobs);
+    let t_parse = t0.elapsed() - t_load;
+    let mut findings: Vec<Finding> = models.iter().flat_map(finding::syntax_findings).collect();
+    findings.sort_by(|x, y| (&x.span.file, x.span.line, x.span.column).cmp(&(&y.span.file, y.span.line, y.span.column)));
+    let modules: usize = models.iter().map(|m| m.modules.len()).sum();
+    if a.timings {
+        eprintln!("timings: load {:.3} s, parse {:.3} s ({} files)", t_load.as_secs_f64(), t_parse.as_secs_f64(), models.len());
+    }
+    match a.format {
+        Format::Json => {
+            let v = output::json::report(models.len(), modules, &findings);
+            println!("{}", serde_json::to_string_pretty(&v).unwrap_or_default());
+        }
+        Format::Human => {
+            let choice = match a.color {
+                Color::Auto => {
+                    if std::io::IsTerminal::is_terminal(&std::io::stdout()) { ColorChoice::Auto } else { ColorChoice::Never }
+                }
+                Color::Always => ColorChoice::Always,
+                Color::Never => ColorChoice::Never,
+            };
+            let mut out = StandardStream::stdout(choice);
+            if !a.quiet {
+                let root = proj.root.clone();
+                let read = move |name: &str| std::fs::read_to_string(root.join(name)).ok();
+                let _ = output::human::render(&mut out, &findings, &read);
+            }
+            println!("seam: {} files, {} modules: {}", models.len(), modules, output::human::summary(&findings));
+        }
+    }
+    let errors = findings.iter().any(|f| !f.waived && f.severity == Severity::Error);
+    if errors { ExitCode::from(1) } else { ExitCode::SUCCESS }
+}

@@ -1,0 +1,4 @@
+//! Renderers for findings: human (source excerpt with carets) and JSON (stable, versioned).
+
+pub mod human;
+pub mod json;

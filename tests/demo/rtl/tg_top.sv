@@ -1,0 +1,29 @@
+// Tide-gauge station top level.
+module tg_top (
+    input  logic        clk_sys,
+    input  logic        clk_adc,
+    input  logic        clk_link,
+    input  logic        clk_rtc,
+    input  logic        rst_n,
+    input  logic        storm_n,
+    input  logic        adc_ovr,
+    input  logic [11:0] adc_data,
+    input  logic        link_rx,
+    output logic [7:0]  frame,
+    output logic [15:0] sample_count,
+    output logic [7:0]  minutes
+);
+  logic [11:0] sample_q;
+  logic        sample_tgl, ovr_q, ovr_hi_q, alarm;
+
+  tg_adc_if u_adc (
+      .clk_adc(clk_adc), .rst_n(rst_n), .adc_ovr(adc_ovr), .adc_data(adc_data),
+      .sample_q(sample_q), .sample_tgl(sample_tgl), .ovr_q(ovr_q), .ovr_hi_q(ovr_hi_q)
+  );
+  tg_logger u_log (
+      .clk_sys(clk_sys), .rst_n(rst_n), .sample_tgl(sample_tgl), .ovr_q(ovr_q),
+      .ovr_hi_q(ovr_hi_q), .storm_n(storm_n), .sample_count(sample_count), .alarm(alarm)
+  );
+  tg_link u_link (.clk_link(clk_link), .rst_n(rst_n), .alarm(alarm), .link_rx(link_rx), .frame(frame));
+  tg_rtc u_rtc (.clk_rtc(clk_rtc), .rst_n(rst_n), .minutes(minutes));
+endmodule

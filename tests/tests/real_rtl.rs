@@ -1,0 +1,108 @@
+//! Real open-source RTL (outside reference: designs that their own projects build with
+//! commercial and open tools): the OpenTitan and Ibex sources shipped in the PyPI packages
+//! `pythondata-misc-opentitan` and `pythondata-cpu-ibex` (fetched by tests/fetch-real-rtl,
+//! never committed). Model extraction over their rtl folders, in compile order (packages
+//! first), with their rtl folders as include dirs, must read at least 97% of files.
+
+use std::path::{Path, PathBuf};
+use std::process::Command;
+
+use seam_tests::*;
+
+pub fn real_root() -> PathBuf {
+    let root = repo_root().join("tests/.cache/real");
+    if !root.join("pythondata_misc_opentitan").is_dir() || !root.join("pythondata_cpu_ibex").is_dir() {
+        let st = Command::new(repo_root().join("tests/fetch-real-rtl")).status().expect("fetch-real-rtl");
+        assert!(st.success(), "could not fetch the real RTL packages from PyPI");
+    }
+    root
+}
+
+fn skip_dir(p: &Path) -> bool {
+    p.components().any(|c| {
+        let s = c.as_os_str().to_string_lossy();
+        matches!(s.as_ref(), "dv" | "pre_dv" | "tb" | "test" | "fpv" | "sim" | "lint" | "formal" | "examples")
+    })
+}
+
+/// Source files under folders named `rtl`, and those folders.
+fn rtl_files(base: &Path) -> (Vec<PathBuf>, Vec<PathBuf>) {
+    let mut files = Vec::new();
+    let mut dirs = Vec::new();
+    for e in walkdir::WalkDir::new(base).into_iter().filter_map(|e| e.ok()) {
+        let p = e.path();
+        if skip_dir(p.strip_prefix(base).unwrap_or(p)) {
+            continue;
+        }
+        if e.file_type().is_dir() && p.file_name().is_some_and(|n| n == "rtl") {
+            dirs.push(p.to_path_buf());
+        }
+        if e.file_type().is_file()
+            && p.components().any(|c| c.as_os_str() == "rtl")
+            && matches!(p.extension().and_then(|x| x.to_str()), Some("sv") | Some("v"))
+        {
+            files.push(p.to_path_buf());
+        }
+    }
+    files.sort();
+    dirs.sort();
+    (files, dirs)
+}
+
+fn defines_package(p: &Path) -> bool {
+    std::fs::read_to_string(p).map(|t| t.lines().any(|l| l.trim_start().starts_with("package "))).unwrap_or(false)
+}
+
+/// Runs `seam check --format json` over a generated filelist; returns (files, files with errors).
+fn parse_rate(name: &str, base: &Path) -> (usize, usize, Vec<String>) {
+    let (files, dirs) = rtl_files(base);
+    assert!(files.len() > 100, "{name}: only {} files found", files.len());
+    let (mut pkgs, rest): (Vec<PathBuf>, Vec<PathBuf>) = files.into_iter().partition(|p| defines_package(p));
+    pkgs.extend(rest);
+    let work = tempfile::tempdir().unwrap();
+    let mut fl = String::new();
+    for d in &dirs {
+        fl.push_str(&format!("+incdir+{}\n", d.display()));
+    }
+    for f in &pkgs {
+        fl.push_str(&format!("{}\n", f.display()));
+    }
+    std::fs::write(work.path().join("real.f"), fl).unwrap();
+    std::fs::write(work.path().join("seam.toml"), "[design]\nfilelist = \"real.f\"\n").unwrap();
+    let out = seam(&["check", "--format", "json", "--parse-timeout", "120"], work.path());
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).expect("json");
+    let total = v["files"].as_u64().unwrap() as usize;
+    let mut bad: Vec<String> = v["findings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .filter(|f| f["rule"] == "syntax-error" && f["severity"] == "error")
+        .map(|f| format!("{}:{}: {}", f["file"].as_str().unwrap_or(""), f["line"], f["message"].as_str().unwrap_or("")))
+        .collect();
+    bad.sort();
+    bad.dedup_by(|a, b| a.split(':').next() == b.split(':').next());
+    (total, bad.len(), bad)
+}
+
+#[test]
+fn opentitan_and_ibex_parse_rate_at_least_97_percent() {
+    let root = real_root();
+    let mut all = 0;
+    let mut failed = 0;
+    for (name, base) in [
+        ("opentitan", root.join("pythondata_misc_opentitan")),
+        ("ibex", root.join("pythondata_cpu_ibex")),
+    ] {
+        let (total, bad, list) = parse_rate(name, &base);
+        let rate = 100.0 * (total - bad) as f64 / total as f64;
+        eprintln!("{name}: {} of {total} files read ({rate:.1}%)", total - bad);
+        for l in list.iter().take(40) {
+            eprintln!("  {l}");
+        }
+        all += total;
+        failed += bad;
+    }
+    let rate = 100.0 * (all - failed) as f64 / all as f64;
+    eprintln!("overall: {rate:.2}% of {all} files");
+    assert!(rate >= 97.0, "parse rate {rate:.2}% below 97%");
+}

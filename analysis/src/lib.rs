@@ -9,3 +9,7 @@ pub mod mtbf;
 pub mod model;
 pub mod parse;
 pub mod finding;
+pub mod report;
+pub mod design;
+
+pub use design::analyze;

@@ -25,12 +25,18 @@ fn skip_dir(p: &Path) -> bool {
     })
 }
 
-/// Source files under folders named `rtl`, and those folders.
+/// Source files under folders named `rtl`, and the include dirs a user would set: those
+/// folders plus every folder that holds a header (.svh/.vh).
 fn rtl_files(base: &Path) -> (Vec<PathBuf>, Vec<PathBuf>) {
     let mut files = Vec::new();
     let mut dirs = Vec::new();
     for e in walkdir::WalkDir::new(base).into_iter().filter_map(|e| e.ok()) {
         let p = e.path();
+        if e.file_type().is_file() && matches!(p.extension().and_then(|x| x.to_str()), Some("svh") | Some("vh")) {
+            if let Some(d) = p.parent() {
+                dirs.push(d.to_path_buf());
+            }
+        }
         if skip_dir(p.strip_prefix(base).unwrap_or(p)) {
             continue;
         }
@@ -46,6 +52,7 @@ fn rtl_files(base: &Path) -> (Vec<PathBuf>, Vec<PathBuf>) {
     }
     files.sort();
     dirs.sort();
+    dirs.dedup();
     (files, dirs)
 }
 

@@ -11,5 +11,6 @@ pub mod parse;
 pub mod finding;
 pub mod report;
 pub mod design;
+pub mod cdc;
 
 pub use design::analyze;

@@ -1,0 +1,59 @@
+//! CDC rules over an elaborated design. `crossings` recognises synchronizers and classifies
+//! every crossing once; each rule in `rules/` turns that into findings of one kind.
+
+pub mod crossings;
+pub mod rules;
+pub mod waivers;
+
+use std::collections::HashMap;
+
+use crate::design::netlist::SigId;
+use crate::design::Ctx;
+use crate::finding::{Finding, Related};
+use crate::report::Crossing;
+
+pub struct CdcResult {
+    pub findings: Vec<Finding>,
+    pub crossings: Vec<Crossing>,
+    /// Per register: (stage k, of N, source domain) of its first stage bit.
+    pub stages: HashMap<SigId, (u32, u32, String)>,
+}
+
+/// Hierarchical name without the top module: `u_log.alarm`.
+pub fn short(ctx: &Ctx, s: SigId) -> String {
+    let n = &ctx.n.sigs[s].name;
+    n.split_once('.').map(|(_, r)| r.to_string()).unwrap_or(n.clone())
+}
+
+pub fn related(ctx: &Ctx, s: SigId, what: &str) -> Related {
+    Related { span: ctx.sig_span(s), message: format!("{what}: {}", short(ctx, s)) }
+}
+
+/// Findings inside trusted synchronizer modules are not reported (their use is checked).
+pub fn in_trusted(ctx: &Ctx, s: SigId) -> bool {
+    ctx.n.insts[ctx.n.sigs[s].inst].trusted
+}
+
+pub fn run(ctx: &Ctx) -> CdcResult {
+    let cx = crossings::Crossings::compute(ctx);
+    let mut findings = Vec::new();
+    let mut crossings = Vec::new();
+    rules::unsynchronized_crossing::check(ctx, &cx, &mut findings, &mut crossings);
+    rules::logic_before_synchronizer::check(ctx, &cx, &mut findings);
+    rules::synchronizer_stage_fanout::check(ctx, &cx, &mut findings);
+    rules::derived_clock::check(ctx, &mut findings);
+    rules::gated_clock::check(ctx, &mut findings);
+    rules::clock_as_data::check(ctx, &mut findings);
+    rules::pulse_loss::check(ctx, &cx, &mut findings);
+    let mut stages: HashMap<SigId, (u32, u32, String)> = HashMap::new();
+    for ((s, _), st) in &cx.stage_bits {
+        let e = stages.entry(*s).or_insert_with(|| st.clone());
+        if st.0 < e.0 {
+            *e = st.clone();
+        }
+    }
+    // the same module instantiated several times reports each place once
+    let mut seen = std::collections::HashSet::new();
+    findings.retain(|f| seen.insert((f.rule.clone(), f.span.file.clone(), f.span.start, f.message.clone())));
+    CdcResult { findings, crossings, stages }
+}

@@ -1,0 +1,9 @@
+//! One file per rule. Each `check` reads the shared classification and adds its findings.
+
+pub mod clock_as_data;
+pub mod derived_clock;
+pub mod gated_clock;
+pub mod logic_before_synchronizer;
+pub mod pulse_loss;
+pub mod synchronizer_stage_fanout;
+pub mod unsynchronized_crossing;

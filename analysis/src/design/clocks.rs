@@ -29,6 +29,10 @@ impl<'a> Ctx<'a> {
     fn root_name(&self, s: SigId) -> Option<String> {
         let sig = &self.n.sigs[s];
         if self.n.top_inputs.contains(&s) {
+            // a port that `[inputs]` declares as data is never a clock root
+            if self.config.inputs.contains_key(sig.local.as_str()) {
+                return None;
+            }
             return Some(sig.local.clone());
         }
         // hierarchical key relative to the top: "u_pll.clk_out"
@@ -146,15 +150,22 @@ impl<'a> Ctx<'a> {
             }
             Expr::Binary { .. } => {
                 // a plain-logic gate: inputs that reach a clock root are the clock, the rest enables
-                let mut clocks = Vec::new();
-                let mut enables = Vec::new();
+                let mut traced: Vec<(&Expr, ClockTrace)> = Vec::new();
                 for op in operands(rhs) {
                     let mut sub = ClockTrace::default();
                     self.trace_expr(op, span, &mut sub, depth + 1);
-                    if sub.roots.is_empty() {
+                    traced.push((op, sub));
+                }
+                // several candidates: the ones named in `[clocks]` are the clock
+                let named = |c: &ClockTrace| c.roots.iter().any(|r| self.config.clocks.contains_key(r));
+                let prefer_named = traced.iter().filter(|(_, c)| !c.roots.is_empty()).count() > 1 && traced.iter().any(|(_, c)| named(c));
+                let mut clocks = Vec::new();
+                let mut enables = Vec::new();
+                for (op, c) in traced {
+                    if c.roots.is_empty() || (prefer_named && !named(&c)) {
                         enables.push(op.clone());
                     } else {
-                        clocks.push(sub);
+                        clocks.push(c);
                     }
                 }
                 if clocks.is_empty() {

@@ -182,9 +182,29 @@ pub fn analyze(models: &[FileModel], config: &Config) -> Analysis {
         f.signal = Some(m.clone());
         findings.push(f);
     }
+    // inputs used only as async resets or sets are not data
+    let mut reset_leaves: BTreeSet<SigId> = BTreeSet::new();
+    for p in &n.procs {
+        for (e, _) in &p.async_controls {
+            if let Some(s) = ctx.g.sig(e) {
+                reset_leaves.extend(ctx.leaves(s).iter().copied());
+            }
+        }
+    }
+    let data_leaves: BTreeSet<SigId> = n
+        .procs
+        .iter()
+        .flat_map(|p| p.assigns.iter())
+        .flat_map(|a| a.rhs.idents().into_iter().chain(a.guards.iter().flat_map(|g| g.cond.idents())))
+        .filter_map(|id| ctx.g.sig(id))
+        .flat_map(|s| ctx.leaves(s).iter().copied().collect::<Vec<_>>())
+        .collect();
     if config.design.unconstrained_inputs == UnconstrainedInputs::Ignore {
         for &s in &n.top_inputs {
             let port = &n.sigs[s].local;
+            if (reset_leaves.contains(&s) && !data_leaves.contains(&s)) || !data_leaves.contains(&s) {
+                continue;
+            }
             if ctx.clock_nets.contains(&s) || config.inputs.contains_key(port.as_str()) || config.clocks.contains_key(port.as_str()) {
                 continue;
             }

@@ -11,7 +11,11 @@ module tg_top (
     input  logic        link_rx,
     output logic [7:0]  frame,
     output logic [15:0] sample_count,
-    output logic [7:0]  minutes
+    input  logic        log_en,
+    input  logic        batt_low,
+    output logic [7:0]  minutes,
+    output logic [3:0]  strobes,
+    output logic        batt_flag
 );
   logic [11:0] sample_q;
   logic        sample_tgl, ovr_q, ovr_hi_q, alarm;
@@ -26,4 +30,8 @@ module tg_top (
   );
   tg_link u_link (.clk_link(clk_link), .rst_n(rst_n), .alarm(alarm), .link_rx(link_rx), .frame(frame));
   tg_rtc u_rtc (.clk_rtc(clk_rtc), .rst_n(rst_n), .minutes(minutes));
+  tg_house u_house (
+      .clk_rtc(clk_rtc), .clk_sys(clk_sys), .rst_n(rst_n), .log_en(log_en),
+      .batt_low(batt_low), .strobes(strobes), .batt_flag(batt_flag)
+  );
 endmodule

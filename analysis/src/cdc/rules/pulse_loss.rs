@@ -70,11 +70,11 @@ pub fn check(ctx: &Ctx, cx: &Crossings, out: &mut Vec<Finding>) {
                 Severity::Warning,
                 d.read_span.clone(),
                 format!(
-                    "`{}` is a one-cycle pulse in domain {sd} ({:.4} MHz) crossing to the slower domain {} ({:.4} MHz) through a level chain: it can be missed; use a toggle synchronizer or a handshake",
+                    "`{}` is a one-cycle pulse in domain {sd} ({}) crossing to the slower domain {} ({}) through a level chain: it can be missed; use a toggle synchronizer or a handshake",
                     short(ctx, src),
-                    fs / 1e6,
+                    crate::config::format_frequency(fs),
                     d.domain,
-                    fd / 1e6
+                    crate::config::format_frequency(fd)
                 ),
             );
             f.signal = Some(short(ctx, src));

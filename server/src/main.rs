@@ -20,6 +20,10 @@ struct Cli {
 enum Command {
     /// Check a design and report findings (exit 0 clean, 1 errors, 2 usage or config error).
     Check(cli::check::CheckArgs),
+    /// List every register with its clock, edge and domain.
+    Domains(cli::domains::DomainsArgs),
+    /// Print a rule's documentation (without RULE: list every rule).
+    Explain(cli::explain::ExplainArgs),
     /// Print the per-file model of each FILE as JSON.
     Model(cli::model::ModelArgs),
     /// Internal: parse one file in a worker process (stdin request, stdout replies).
@@ -28,17 +32,43 @@ enum Command {
 }
 
 fn main() -> ExitCode {
+    // a closed pipe (`seam domains | head`) ends the program quietly, as Unix tools do
+    #[cfg(unix)]
+    unsafe {
+        libc::signal(libc::SIGPIPE, libc::SIG_DFL);
+    }
     let cli = match Cli::try_parse() {
         Ok(c) => c,
         Err(e) => {
-            let code = if e.use_stderr() { 2 } else { 0 };
-            let _ = e.print();
-            return ExitCode::from(code);
+            if !e.use_stderr() {
+                let _ = e.print(); // --help, --version
+                return ExitCode::SUCCESS;
+            }
+            return cli::usage_error(one_line_clap_error(&e));
         }
     };
     match cli.command {
         Command::Check(a) => cli::check::run(a),
+        Command::Domains(a) => cli::domains::run(a),
+        Command::Explain(a) => cli::explain::run(a),
         Command::Model(a) => cli::model::run(a),
         Command::ParseWorker => worker::serve_one(),
     }
+}
+
+/// A clap error as one line: its message and hints, without the usage block.
+fn one_line_clap_error(e: &clap::Error) -> String {
+    if e.kind() == clap::error::ErrorKind::DisplayHelpOnMissingArgumentOrSubcommand {
+        return "missing subcommand (check, domains, explain, model, serve); try 'seam --help'".to_string();
+    }
+    let text = e.render().to_string();
+    let parts: Vec<&str> = text
+        .lines()
+        .map(str::trim)
+        .take_while(|l| !l.starts_with("Usage:") && !l.starts_with("For more information"))
+        .filter(|l| !l.is_empty())
+        .collect();
+    let line = parts.join(" ");
+    let line = line.strip_prefix("error: ").unwrap_or(&line).to_string();
+    if line.is_empty() { "bad arguments; try 'seam --help'".to_string() } else { format!("{line}; try 'seam --help'") }
 }

@@ -153,7 +153,7 @@ impl Crossings {
                 let b = cx.dests[i].bits[j].0;
                 let len = cx.chain_len(ctx, (r, b), 0);
                 cx.dests[i].bits[j].2 = len;
-                if let DIn::Single { leaf, .. } = &cx.dests[i].bits[j].1 {
+                if let (DIn::Single { leaf, .. }, true) = (&cx.dests[i].bits[j].1, len >= 2) {
                     let src_dom = ctx.leaf_domain(leaf.0).unwrap_or_default();
                     cx.mark(ctx, (r, b), 1, len, &src_dom, 0);
                 }

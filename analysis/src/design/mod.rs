@@ -245,7 +245,22 @@ pub fn analyze(models: &[FileModel], config: &Config) -> Analysis {
         let rc = &ctx.reg_clock[&s];
         let pi = ctx.g.reg_proc[&s];
         let reset = n.procs[pi].async_controls.first().map(|(e, high)| {
-            let src = crate::model::render(e);
+            // name the reset by where it comes from: a top input, a register, or logic
+            let src = match ctx.g.bit_of(e, 0) {
+                graph::BitSrc::Copy(s, b) => {
+                    let (l, _, _) = ctx.g.through_copies(s, b);
+                    let name = &n.sigs[l].name;
+                    let what = if n.top_inputs.contains(&l) {
+                        "top-level input"
+                    } else if ctx.g.is_reg(l) {
+                        "register"
+                    } else {
+                        "logic"
+                    };
+                    format!("{what} {}", name.split_once('.').map(|(_, r)| r).unwrap_or(name))
+                }
+                _ => format!("logic {}", crate::model::render(e)),
+            };
             format!("{src} (active {})", if *high { "high" } else { "low" })
         });
         out.registers.push(RegisterInfo {

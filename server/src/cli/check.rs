@@ -6,7 +6,7 @@ use std::time::{Duration, Instant};
 
 use clap::{Args, ValueEnum};
 use codespan_reporting::term::termcolor::{ColorChoice, StandardStream};
-use seam_analysis::finding::{self, Finding, Severity};
+use seam_analysis::finding::Severity;
 
 use crate::output;
 use crate::{project, worker};
@@ -15,6 +15,7 @@ use crate::{project, worker};
 pub enum Format {
     Human,
     Json,
+    Sarif,
 }
 
 #[derive(Clone, Copy, ValueEnum)]
@@ -33,6 +34,9 @@ pub struct CheckArgs {
     pub config: Option<PathBuf>,
     #[arg(long, value_enum, default_value = "human")]
     pub format: Format,
+    /// Also write a self-contained HTML report (domains, crossing map, crossings, findings).
+    #[arg(long, value_name = "FILE.html")]
+    pub report: Option<PathBuf>,
     #[arg(long, value_enum, default_value = "auto")]
     pub color: Color,
     /// Print only the summary line (human format).
@@ -59,15 +63,24 @@ pub fn run(a: CheckArgs) -> ExitCode {
     let t_load = t0.elapsed();
     let models = worker::parse_all(&proj.jobs, proj.macros.clone(), &proj.options, Duration::from_secs(a.parse_timeout), jobs);
     let t_parse = t0.elapsed() - t_load;
-    let mut findings: Vec<Finding> = models.iter().flat_map(finding::syntax_findings).collect();
-    findings.sort_by(|x, y| (&x.span.file, x.span.line, x.span.column).cmp(&(&y.span.file, y.span.line, y.span.column)));
+    let mut analysis = seam_analysis::analyze(&models, &proj.config);
+    analysis.findings.sort_by(|x, y| (&x.span.file, x.span.line, x.span.column).cmp(&(&y.span.file, y.span.line, y.span.column)));
+    let findings = &analysis.findings;
     let modules: usize = models.iter().map(|m| m.modules.len()).sum();
     if a.timings {
         eprintln!("timings: load {:.3} s, parse {:.3} s ({} files)", t_load.as_secs_f64(), t_parse.as_secs_f64(), models.len());
     }
+    let src_root = proj.root.clone();
+    let read_src = move |name: &str| std::fs::read_to_string(src_root.join(name)).ok();
+    if let Some(path) = &a.report {
+        if let Err(e) = output::html::write(path, &analysis, &proj.config, &read_src, &proj.root) {
+            return super::usage_error(e);
+        }
+    }
     match a.format {
+        Format::Sarif => println!("{}", output::sarif::render(&analysis, &proj.config, &read_src, &proj.root)),
         Format::Json => {
-            let v = output::json::report(models.len(), modules, &findings);
+            let v = output::json::analysis_report(&analysis);
             println!("{}", serde_json::to_string_pretty(&v).unwrap_or_default());
         }
         Format::Human => {

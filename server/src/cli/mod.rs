@@ -1,6 +1,8 @@
 //! Subcommands of the `seam` binary; each parses its arguments and calls the analysis crate.
 
 pub mod check;
+pub mod domains;
+pub mod explain;
 pub mod model;
 
 /// Print a one-line error and return exit code 2.

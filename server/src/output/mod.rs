@@ -2,3 +2,5 @@
 
 pub mod human;
 pub mod json;
+pub mod sarif;
+pub mod html;

@@ -1,0 +1,89 @@
+//! `seam domains`: every register with its clock, edge, domain and reset source.
+
+use std::path::PathBuf;
+use std::process::ExitCode;
+use std::time::Duration;
+
+use clap::{Args, ValueEnum};
+use serde_json::json;
+
+use crate::{project, worker};
+
+#[derive(Clone, Copy, ValueEnum)]
+pub enum DomainsFormat {
+    Human,
+    Json,
+}
+
+#[derive(Args)]
+pub struct DomainsArgs {
+    /// Files or folders (default: the design in seam.toml, else the current folder).
+    pub paths: Vec<PathBuf>,
+    #[arg(long)]
+    pub config: Option<PathBuf>,
+    #[arg(long, value_enum, default_value = "human")]
+    pub format: DomainsFormat,
+}
+
+pub fn run(a: DomainsArgs) -> ExitCode {
+    let proj = match project::load(&a.paths, a.config.as_deref()) {
+        Ok(p) => p,
+        Err(e) => return super::usage_error(e.0),
+    };
+    let jobs = std::thread::available_parallelism().map(|n| n.get()).unwrap_or(2);
+    let models = worker::parse_all(&proj.jobs, proj.macros.clone(), &proj.options, Duration::from_secs(60), jobs);
+    let an = seam_analysis::analyze(&models, &proj.config);
+    let edge = |e: seam_analysis::model::Edge| match e {
+        seam_analysis::model::Edge::Posedge => "posedge",
+        seam_analysis::model::Edge::Negedge => "negedge",
+        seam_analysis::model::Edge::Any => "any",
+    };
+    match a.format {
+        DomainsFormat::Json => {
+            let v = json!({
+                "version": 1,
+                "clocks": an.clocks.iter().map(|c| json!({
+                    "name": c.name, "frequency_hz": c.frequency_hz, "group": c.group,
+                    "root": c.root, "domain": c.domain,
+                })).collect::<Vec<_>>(),
+                "registers": an.registers.iter().map(|r| json!({
+                    "instance": r.instance, "module": r.module, "signal": r.signal,
+                    "file": r.span.file, "line": r.span.line,
+                    "clock": r.clock, "edge": edge(r.edge), "domain": r.domain,
+                    "derived_from": r.derived_from, "reset": r.reset,
+                    "stage": r.stage.as_ref().map(|(k, n, from)| json!({"stage": k, "of": n, "from": from})),
+                })).collect::<Vec<_>>(),
+            });
+            println!("{}", serde_json::to_string_pretty(&v).unwrap_or_default());
+        }
+        DomainsFormat::Human => {
+            println!("clocks:");
+            for c in &an.clocks {
+                let f = c.frequency_hz.map(seam_analysis::config::format_frequency).unwrap_or_else(|| "frequency unknown".into());
+                println!("  {:<16} {:<14} domain {}", c.name, f, c.domain);
+            }
+            println!("registers:");
+            for r in &an.registers {
+                let mut extra = String::new();
+                if let Some(d) = &r.derived_from {
+                    extra.push_str(&format!(" (clocked by register {d})"));
+                }
+                if let Some((k, n, from)) = &r.stage {
+                    extra.push_str(&format!(" [stage {k} of {n} from {from}]"));
+                }
+                if let Some(rs) = &r.reset {
+                    extra.push_str(&format!(" reset {rs}"));
+                }
+                println!(
+                    "  {:<32} {:<10} {} {}{}",
+                    format!("{}.{}", r.instance, r.signal),
+                    r.domain.as_deref().unwrap_or("?"),
+                    edge(r.edge),
+                    r.clock.as_deref().unwrap_or("?"),
+                    extra
+                );
+            }
+        }
+    }
+    ExitCode::SUCCESS
+}

@@ -15,20 +15,23 @@ pub fn fixtures() -> PathBuf {
     repo_root().join("tests").join("fixtures")
 }
 
-/// The `seam` binary of this build (tests/run builds it before `cargo test`).
+static BUILD: std::sync::Once = std::sync::Once::new();
+
+/// The `seam` binary of this build. It is rebuilt once per test process (a no-op when it is
+/// up to date), so a test never runs a stale binary.
 pub fn seam_bin() -> PathBuf {
     // test executables live in target/<profile>/deps; the binary in target/<profile>
     let exe = std::env::current_exe().expect("test exe");
     let profile_dir = exe.parent().and_then(|p| p.parent()).expect("target dir");
     let bin = profile_dir.join(format!("seam{}", std::env::consts::EXE_SUFFIX));
-    if !bin.exists() {
+    BUILD.call_once(|| {
         let st = Command::new(env!("CARGO"))
             .args(["build", "-p", "seam-server", "--bin", "seam"])
             .current_dir(repo_root())
             .status()
             .expect("cargo build");
         assert!(st.success(), "building seam failed");
-    }
+    });
     bin
 }
 

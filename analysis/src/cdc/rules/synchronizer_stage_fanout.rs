@@ -93,7 +93,22 @@ pub fn check(ctx: &Ctx, cx: &Crossings, out: &mut Vec<Finding>) {
             allowed.extend(f.hops.iter().copied());
         }
         for (r, target, span) in &places {
-            let hit = r.iter().any(|(rs, rb)| *rs == s && rb.is_none_or(|x| x == b));
+            // a read of an alias (port, wire) counts as a read of the stage it copies
+            let hit = r.iter().any(|(rs, rb)| {
+                if *rs == s && rb.is_none_or(|x| x == b) {
+                    return true;
+                }
+                let w = ctx.n.sigs[*rs].width.unwrap_or(1);
+                let probe = match rb {
+                    Some(x) => Some(*x),
+                    None if w == 1 => Some(0),
+                    None => None,
+                };
+                probe.is_some_and(|pb| {
+                    let (ls, lb, _) = ctx.g.through_copies(*rs, pb);
+                    (ls, lb) == (s, b) && *rs != s
+                })
+            });
             if !hit {
                 continue;
             }

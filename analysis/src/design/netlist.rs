@@ -563,9 +563,26 @@ fn cell_netlist(n: &mut Netlist, parent: usize, child: usize, cell: &Cell, conns
             }
         }
         Cell::Synchronizer { clock, input, output, stages } => {
+            // modelled as the chain it stands for: N flops on the cell's clock
             if let (Some(o), Some(c), Some(i)) = (get(n, output), get(n, clock), get(n, input)) {
-                let st = Expr::Const { text: stages.to_string(), value: Some(*stages as u64), width: None };
-                n.combs.push(Comb { inst: parent, target: o, rhs: call("$seam_sync_cell", vec![c, i, st]), span: span.clone(), port: true });
+                let width = o.base_name().and_then(|b| n.by_name.get(b)).and_then(|s| n.sigs[*s].width);
+                let path = n.insts[child].path.clone();
+                let mut prev = i;
+                for k in 1..=(*stages).max(1) {
+                    let name = format!("{path}.stage{k}");
+                    add_sig(n, child, &name, &format!("stage{k}"), width, 0, false, None, span);
+                    let q = Expr::Ident { name, loc: Loc::default() };
+                    n.procs.push(Proc {
+                        inst: child,
+                        clock: Some((c.clone(), Edge::Posedge)),
+                        async_controls: vec![],
+                        assigns: vec![FAssign { target: q.clone(), rhs: prev, guards: vec![], in_reset: false, span: span.clone() }],
+                        span: span.clone(),
+                        file: 0,
+                    });
+                    prev = q;
+                }
+                n.combs.push(Comb { inst: parent, target: o, rhs: prev, span: span.clone(), port: true });
             }
         }
         Cell::Flop { clock, input, output, reset } => {

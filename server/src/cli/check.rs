@@ -63,12 +63,22 @@ pub fn run(a: CheckArgs) -> ExitCode {
     let t_load = t0.elapsed();
     let models = worker::parse_all(&proj.jobs, proj.macros.clone(), &proj.options, Duration::from_secs(a.parse_timeout), jobs);
     let t_parse = t0.elapsed() - t_load;
+    let t_d0 = Instant::now();
     let mut analysis = seam_analysis::analyze(&models, &proj.config);
+    let t_design = t_d0.elapsed();
     analysis.findings.sort_by(|x, y| (&x.span.file, x.span.line, x.span.column).cmp(&(&y.span.file, y.span.line, y.span.column)));
     let findings = &analysis.findings;
     let modules: usize = models.iter().map(|m| m.modules.len()).sum();
     if a.timings {
-        eprintln!("timings: load {:.3} s, parse {:.3} s ({} files)", t_load.as_secs_f64(), t_parse.as_secs_f64(), models.len());
+        eprintln!(
+            "timings: load {:.3} s, parse {:.3} s ({} files, {} workers), design + rules {:.3} s ({:.1}% of parse)",
+            t_load.as_secs_f64(),
+            t_parse.as_secs_f64(),
+            models.len(),
+            jobs,
+            t_design.as_secs_f64(),
+            100.0 * t_design.as_secs_f64() / t_parse.as_secs_f64().max(1e-9)
+        );
     }
     let src_root = proj.root.clone();
     let read_src = move |name: &str| std::fs::read_to_string(src_root.join(name)).ok();

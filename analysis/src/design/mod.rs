@@ -159,7 +159,38 @@ impl<'a> Ctx<'a> {
 }
 
 /// Analyse a whole design: every file's model (in compile order) and the project config.
+///
+/// Runs on a thread with a large stack (deep combinational paths and hierarchies recurse)
+/// and turns an internal failure into a finding instead of a crash.
 pub fn analyze(models: &[FileModel], config: &Config) -> Analysis {
+    let result = std::thread::scope(|s| {
+        std::thread::Builder::new()
+            .stack_size(1 << 30)
+            .spawn_scoped(s, || std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| analyze_here(models, config))))
+            .map(|h| h.join())
+    });
+    match result {
+        Ok(Ok(Ok(a))) => a,
+        _ => {
+            let mut a = Analysis {
+                files: models.len(),
+                modules: models.iter().map(|m| m.modules.len()).sum(),
+                ..Analysis::default()
+            };
+            a.findings = models.iter().flat_map(finding::syntax_findings).collect();
+            let span = models.first().map(|m| crate::model::Span { file: m.path.clone(), line: 1, column: 1, end_line: 1, end_column: 1, ..Default::default() }).unwrap_or_default();
+            a.findings.push(Finding::new(
+                "syntax-error",
+                Severity::Error,
+                span,
+                "internal error while analysing the design; CDC findings are missing (please report this design)",
+            ));
+            a
+        }
+    }
+}
+
+fn analyze_here(models: &[FileModel], config: &Config) -> Analysis {
     let mut findings: Vec<Finding> = models.iter().flat_map(finding::syntax_findings).collect();
     let index = ModuleIndex::new(models);
     let tops = index.tops(config);

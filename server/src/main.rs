@@ -59,7 +59,10 @@ fn main() -> ExitCode {
 /// A clap error as one line: its message and hints, without the usage block.
 fn one_line_clap_error(e: &clap::Error) -> String {
     if e.kind() == clap::error::ErrorKind::DisplayHelpOnMissingArgumentOrSubcommand {
-        return "missing subcommand (check, domains, explain, model, serve); try 'seam --help'".to_string();
+        use clap::CommandFactory;
+        let cmd = Cli::command();
+        let names: Vec<&str> = cmd.get_subcommands().filter(|c| !c.is_hide_set()).map(|c| c.get_name()).collect();
+        return format!("missing subcommand ({}); try 'seam --help'", names.join(", "));
     }
     let text = e.render().to_string();
     let parts: Vec<&str> = text

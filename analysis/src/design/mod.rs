@@ -355,5 +355,12 @@ fn analyze_here(models: &[FileModel], config: &Config) -> Analysis {
     }
 
     out.findings = crate::cdc::waivers::apply(findings, models, config);
+    // a crossing whose finding is waived shows as waived in the tables and the map
+    for c in out.crossings.iter_mut().filter(|c| c.status == crate::report::CrossingStatus::Unsafe) {
+        let waived = out.findings.iter().any(|f| f.waived && f.span.file == c.span.file && f.span.line == c.span.line);
+        if waived {
+            c.status = crate::report::CrossingStatus::Waived;
+        }
+    }
     out
 }

@@ -105,9 +105,9 @@ pub fn run(a: CheckArgs) -> ExitCode {
             if !a.quiet {
                 let root = proj.root.clone();
                 let read = move |name: &str| std::fs::read_to_string(root.join(name)).ok();
-                let _ = output::human::render(&mut out, &findings, &read);
+                let _ = output::human::render(&mut out, findings, &read);
             }
-            println!("seam: {} files, {} modules: {}", models.len(), modules, output::human::summary(&findings));
+            println!("seam: {} files, {} modules: {}", models.len(), modules, output::human::summary(findings));
         }
     }
     let errors = findings.iter().any(|f| !f.waived && f.severity == Severity::Error);

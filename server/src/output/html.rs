@@ -89,7 +89,7 @@ header.masthead h1 { margin:0 0 4px; font-size:22px; letter-spacing:.02em; }
 header.masthead .meta { margin:0; color:#c9d4e0; font-size:13px; }
 ul.tally { list-style:none; margin:10px 0 0; padding:0; display:flex; flex-wrap:wrap; gap:8px; }
 ul.tally li { background:rgba(255,255,255,.12); border-radius:12px; padding:2px 10px; font-size:13px; }
-main { padding:8px 32px 24px; max-width:1180px; }
+main { padding:8px 32px 24px; max-width:1240px; }
 section { margin-top:22px; }
 h2 { font-size:18px; border-bottom:2px solid var(--rule); padding-bottom:4px; margin:0 0 10px; }
 table { border-collapse:collapse; width:100%; font-size:13.5px; }
@@ -124,7 +124,7 @@ pre.excerpt .ln { display:inline-block; min-width:3.5em; color:#9a917f; user-sel
 pre.excerpt mark { background:#f3c58b; color:inherit; border-radius:2px; }
 ul.related { margin:4px 0 0; padding-left:20px; font-size:13px; }
 p.waiver { margin:4px 0 0; color:var(--waived); font-size:13px; }
-footer { border-top:2px solid var(--rule); margin:28px 32px 0; padding:10px 0 28px; color:var(--muted); font-size:12.5px; max-width:1180px; }
+footer { border-top:2px solid var(--rule); margin:28px 32px 0; padding:10px 0 28px; color:var(--muted); font-size:12.5px; max-width:1176px; }
 footer p { margin:4px 0; }
 "##;
 
@@ -235,10 +235,10 @@ fn short(s: &str, n: usize) -> String {
 }
 
 fn svg_map(a: &Analysis, doms: &[String]) -> String {
-    const NODE_R: f64 = 46.0;
+    const NODE_R: f64 = 50.0;
     let n = doms.len();
     let ring = if n <= 2 { 170.0 } else { (130.0 + 26.0 * n as f64).min(330.0) };
-    let size = 2.0 * (ring + NODE_R + 70.0);
+    let size = 2.0 * (ring + NODE_R + 44.0);
     let (cx, cy) = (size / 2.0, size / 2.0);
     let pos = node_positions(n, cx, cy, ring);
     let index: BTreeMap<&str, usize> = doms.iter().enumerate().map(|(i, d)| (d.as_str(), i)).collect();
@@ -663,15 +663,17 @@ mod tests {
 
     #[test]
     fn one_node_per_domain_one_edge_per_group_and_escaped_excerpts() {
-        let mut a = Analysis::default();
-        a.clocks = vec![clock("clk_a", 100e6), clock("clk_b", 25e6)];
-        a.crossings = vec![
-            crossing("clk_a", "clk_b", CrossingStatus::Synchronized),
-            crossing("clk_a", "clk_b", CrossingStatus::Synchronized),
-            crossing("clk_a", "clk_b", CrossingStatus::Unsafe),
-            crossing("clk_b", "clk_a", CrossingStatus::Waived),
-            crossing("async", "clk_a", CrossingStatus::Unsafe),
-        ];
+        let mut a = Analysis {
+            clocks: vec![clock("clk_a", 100e6), clock("clk_b", 25e6)],
+            crossings: vec![
+                crossing("clk_a", "clk_b", CrossingStatus::Synchronized),
+                crossing("clk_a", "clk_b", CrossingStatus::Synchronized),
+                crossing("clk_a", "clk_b", CrossingStatus::Unsafe),
+                crossing("clk_b", "clk_a", CrossingStatus::Waived),
+                crossing("async", "clk_a", CrossingStatus::Unsafe),
+            ],
+            ..Analysis::default()
+        };
         let mut f = Finding::new("unsynchronized-crossing", Severity::Error, span("rtl/a.v", 2, 5, 7), "x <b> & y");
         f.signal = Some("x".into());
         a.findings = vec![f];

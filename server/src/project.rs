@@ -12,6 +12,7 @@ use crate::worker::Job;
 pub struct Project {
     pub root: PathBuf,
     pub config: Config,
+    #[allow(dead_code)] // kept for the language server, which watches it
     pub config_path: Option<PathBuf>,
     /// Files to compile, in compile order.
     pub jobs: Vec<Job>,

@@ -130,6 +130,18 @@ struct Running {
 /// Parse every job in compile order, `parallel` children at a time, each under `limit`.
 /// Macros defined by a file are in force for every later file.
 pub fn parse_all(jobs: &[Job], initial: MacroTable, opts: &ParseOptions, limit: Duration, parallel: usize) -> Vec<FileModel> {
+    parse_all_with_progress(jobs, initial, opts, limit, parallel, &mut |_, _| {})
+}
+
+/// As [`parse_all`], calling `progress(done, total)` as files finish.
+pub fn parse_all_with_progress(
+    jobs: &[Job],
+    initial: MacroTable,
+    opts: &ParseOptions,
+    limit: Duration,
+    parallel: usize,
+    progress: &mut dyn FnMut(usize, usize),
+) -> Vec<FileModel> {
     let exe = std::env::current_exe().ok();
     let Some(exe) = exe else { return parse_all_in_process(jobs, initial, opts) };
     let (tx, rx) = mpsc::channel::<Msg>();
@@ -141,7 +153,12 @@ pub fn parse_all(jobs: &[Job], initial: MacroTable, opts: &ParseOptions, limit: 
     let mut next = 0usize;
     let parallel = parallel.max(1);
     let mut done = 0usize;
+    let mut reported = 0usize;
     while done < jobs.len() {
+        if done != reported {
+            reported = done;
+            progress(done, jobs.len());
+        }
         // start what can start: the next file once its incoming macros are known
         while next < jobs.len() && running.len() < parallel && macros_at[next].is_some() {
             let req = Request {

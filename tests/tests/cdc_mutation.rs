@@ -24,7 +24,7 @@ struct Mutant {
     anchor: &'static str,
 }
 
-const TWO_CLK: &str = "[inputs]\novr_in = \"clk_adc\"\nup_in = \"clk_link\"\nrdy_in = \"clk_link\"\nlvl_in = \"clk_adc\"\nreq_in = \"clk_adc\"\nen_in = \"clk_sys\"\nhi_in = \"clk_adc\"\n\n[clocks]\nclk_adc = {}\nclk_sys = {}\nclk_link = {}\n";
+const TWO_CLK: &str = "[inputs]\novr_in = \"clk_adc\"\nup_in = \"clk_link\"\nrdy_in = \"clk_link\"\nlvl_in = \"clk_adc\"\nflood_in = \"clk_adc\"\nreq_in = \"clk_adc\"\nen_in = \"clk_sys\"\nhi_in = \"clk_adc\"\n\n[clocks]\nclk_adc = {}\nclk_sys = {}\nclk_link = {}\n";
 
 fn findings(dir: &Path) -> Vec<(String, String, u64, String)> {
     let out = seam(&["check", "--format", "json"], dir);
@@ -203,6 +203,18 @@ fn crossing_across_files_and_hierarchy() {
         &[
             Mutant { name: "drop a stage", file: "hier/h_dst.v", old: "cnt <= cnt + {7'd0, h2};", new: "cnt <= cnt + {7'd0, h1};", toml: None, rule: "synchronizer-stage-fanout", anchor: "{7'd0, h1}" },
             Mutant { name: "no synchronizer", file: "hier/h_dst.v", old: "cnt <= cnt + {7'd0, h2};", new: "cnt <= cnt + {7'd0, hi};", toml: None, rule: "unsynchronized-crossing", anchor: "{7'd0, hi}" },
+        ],
+    );
+}
+
+#[test]
+fn chain_of_separate_registers_as_one_concatenation() {
+    let f = "good/g9_concat_regs.v";
+    run(
+        Base { files: &[f], toml: TWO_CLK },
+        &[
+            Mutant { name: "tap stage 1", file: f, old: "cnt <= cnt + {7'd0, f2};", new: "cnt <= cnt + {7'd0, f1};", toml: None, rule: "synchronizer-stage-fanout", anchor: "{7'd0, f1}" },
+            Mutant { name: "gate stage 1 with another source bit", file: f, old: "{f1, flood_q};", new: "{f1, flood_q & spare_q};", toml: None, rule: "logic-before-synchronizer", anchor: "flood_q & spare_q" },
         ],
     );
 }

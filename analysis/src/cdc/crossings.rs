@@ -144,6 +144,10 @@ impl Crossings {
                     bits.push((b, d, 0));
                 }
             }
+            // `{r2, r1} <= {r1, d}` reads d for r1 only: r2 has no crossing bit of its own
+            if bits.is_empty() {
+                continue;
+            }
             cx.dests.push(Dest { reg: r, domain: dom, sources, bits, read_span: read_span.unwrap_or_default(), qualified: false });
         }
         // chain lengths and stages

@@ -61,7 +61,30 @@ pub fn run(a: CheckArgs) -> ExitCode {
     };
     let jobs = a.jobs.unwrap_or_else(|| std::thread::available_parallelism().map(|n| n.get()).unwrap_or(2));
     let t_load = t0.elapsed();
-    let models = worker::parse_all(&proj.jobs, proj.macros.clone(), &proj.options, Duration::from_secs(a.parse_timeout), jobs);
+    // a progress bar on stderr, only for people watching a terminal
+    let bar = (!a.quiet && std::io::IsTerminal::is_terminal(&std::io::stderr()) && proj.jobs.len() > 20).then(|| {
+        let b = indicatif::ProgressBar::new(proj.jobs.len() as u64);
+        b.set_style(
+            indicatif::ProgressStyle::with_template("parsing {bar:30} {pos}/{len} files {elapsed}")
+                .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar()),
+        );
+        b
+    });
+    let models = worker::parse_all_with_progress(
+        &proj.jobs,
+        proj.macros.clone(),
+        &proj.options,
+        Duration::from_secs(a.parse_timeout),
+        jobs,
+        &mut |done, _| {
+            if let Some(b) = &bar {
+                b.set_position(done as u64);
+            }
+        },
+    );
+    if let Some(b) = &bar {
+        b.finish_and_clear();
+    }
     let t_parse = t0.elapsed() - t_load;
     let t_d0 = Instant::now();
     let mut analysis = seam_analysis::analyze(&models, &proj.config);

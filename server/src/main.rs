@@ -4,6 +4,7 @@ mod cli;
 mod output;
 mod project;
 mod worker;
+mod lsp;
 
 use std::process::ExitCode;
 
@@ -26,6 +27,8 @@ enum Command {
     Explain(cli::explain::ExplainArgs),
     /// Print the per-file model of each FILE as JSON.
     Model(cli::model::ModelArgs),
+    /// Run the language server (LSP over stdio).
+    Serve(lsp::ServeArgs),
     /// Internal: parse one file in a worker process (stdin request, stdout replies).
     #[command(name = "__parse-worker", hide = true)]
     ParseWorker,
@@ -52,6 +55,7 @@ fn main() -> ExitCode {
         Command::Domains(a) => cli::domains::run(a),
         Command::Explain(a) => cli::explain::run(a),
         Command::Model(a) => cli::model::run(a),
+        Command::Serve(a) => lsp::run(a),
         Command::ParseWorker => worker::serve_one(),
     }
 }

@@ -76,7 +76,7 @@ fn parse_rate(name: &str, base: &Path) -> (usize, usize, Vec<String>) {
     }
     std::fs::write(work.path().join("real.f"), fl).unwrap();
     std::fs::write(work.path().join("seam.toml"), "[design]\nfilelist = \"real.f\"\n").unwrap();
-    let out = seam(&["check", "--format", "json", "--parse-timeout", "120"], work.path());
+    let out = seam(&["check", "--parse-only", "--format", "json", "--parse-timeout", "120"], work.path());
     let v: serde_json::Value = serde_json::from_slice(&out.stdout).expect("json");
     let total = v["files"].as_u64().unwrap() as usize;
     let mut bad: Vec<String> = v["findings"]

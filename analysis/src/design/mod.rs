@@ -106,8 +106,16 @@ impl<'a> Ctx<'a> {
 
     /// Registers and top inputs that feed `s` through combinational logic (s itself if it is one).
     pub fn leaves(&self, s: SigId) -> std::rc::Rc<BTreeSet<SigId>> {
+        self.leaves_at(s, 0)
+    }
+
+    /// `depth` bounds the recursion (long combinational paths in big designs).
+    fn leaves_at(&self, s: SigId, depth: u32) -> std::rc::Rc<BTreeSet<SigId>> {
         if let Some(l) = self.leaves.borrow().get(&s) {
             return l.clone();
+        }
+        if depth > 2_000 {
+            return Default::default();
         }
         // mark in progress (combinational loops end here)
         self.leaves.borrow_mut().insert(s, Default::default());
@@ -129,7 +137,7 @@ impl<'a> Ctx<'a> {
                     for id in e.idents() {
                         if let Some(r) = self.g.sig(id) {
                             if r != s {
-                                out.extend(self.leaves(r).iter().copied());
+                                out.extend(self.leaves_at(r, depth + 1).iter().copied());
                             }
                         }
                     }

@@ -8,7 +8,9 @@
 //! unsynchronized read, whose diagnostic moves with each edit (so every edit publishes).
 //!
 //! Reported: median and p95 over the edits, for the default debounce (100 ms) and with the
-//! debounce set to 0 (the server's own work); each also as a ratio to the parse time.
+//! debounce set to 0 (the server's own work), and the same as ratios to the baseline: each
+//! edit is paired with an sv-parser parse of the file run just before it, so a busy machine
+//! slows both alike. Then parse_file and analyze in-process, also paired with the baseline.
 
 use std::path::Path;
 use std::time::{Duration, Instant};
@@ -113,68 +115,64 @@ fn station(channels: usize) -> String {
     s
 }
 
-fn percentile(sorted: &[Duration], p: f64) -> Duration {
-    let i = ((sorted.len() as f64 - 1.0) * p).round() as usize;
-    sorted[i.min(sorted.len() - 1)]
-}
-
-fn ms(d: Duration) -> f64 {
-    d.as_secs_f64() * 1e3
-}
-
-/// sv-parser alone (preprocess + parse) on the text: the baseline.
-fn parse_time(text: &str, path: &Path, runs: usize) -> Duration {
+/// sv-parser alone (preprocess + parse) on the text, once: the baseline.
+fn parse_once(text: &str, path: &Path) -> Duration {
     let defines = std::collections::HashMap::new();
     let inc: Vec<std::path::PathBuf> = vec![];
-    let mut t: Vec<Duration> = (0..runs)
-        .map(|_| {
-            let t0 = Instant::now();
-            let r = sv_parser::parse_sv_str(text, path, &defines, &inc, false, false);
-            let d = t0.elapsed();
-            assert!(r.is_ok(), "the generated file parses");
-            d
-        })
-        .collect();
-    t.sort();
-    t[t.len() / 2]
+    let t0 = Instant::now();
+    let r = sv_parser::parse_sv_str(text, path, &defines, &inc, false, false);
+    let d = t0.elapsed();
+    assert!(r.is_ok(), "the generated file parses");
+    d
 }
 
-/// The server's own steps in-process: parse_file (sv-parser + the model) and analyze.
-fn steps(dir: &Path, file: &Path, text: &str, runs: usize) -> (Duration, Duration) {
+/// Median and p95 of a sample.
+fn stats(mut v: Vec<f64>) -> (f64, f64) {
+    v.sort_by(|a, b| a.total_cmp(b));
+    let at = |p: f64| v[(((v.len() - 1) as f64) * p).round() as usize];
+    (at(0.5), at(0.95))
+}
+
+/// The server's own steps in-process, each run paired with a baseline parse: ratios of
+/// parse_file (sv-parser + the model) and of analyze to sv-parser's parse time.
+fn steps(dir: &Path, file: &Path, text: &str, runs: usize) -> ((f64, f64), (f64, f64)) {
     use seam_analysis::parse::{parse_file, MacroTable, ParseOptions};
     let macros = MacroTable::with_defines([("SYNTHESIS", None)]);
     let opts = ParseOptions::default();
     let path = file.to_string_lossy().to_string();
     let cfg_text = std::fs::read_to_string(dir.join("seam.toml")).unwrap();
     let config = seam_analysis::config::parse_config("seam.toml", &cfg_text).unwrap();
-    let mut p = Vec::new();
-    let mut a = Vec::new();
+    let (mut rp, mut ra) = (Vec::new(), Vec::new());
     for _ in 0..runs {
+        let base = parse_once(text, file).as_secs_f64();
         let t0 = Instant::now();
         let out = parse_file(&path, "rtl/tg_bench_station.v", text.as_bytes(), &macros, &opts);
-        p.push(t0.elapsed());
+        let p = t0.elapsed().as_secs_f64();
         let models = vec![out.model];
         let t1 = Instant::now();
         let r = seam_analysis::analyze(&models, &config);
-        a.push(t1.elapsed());
+        let an = t1.elapsed().as_secs_f64();
         assert!(r.modules > 0);
+        rp.push(p / base);
+        ra.push(an / base);
     }
-    p.sort();
-    a.sort();
-    (p[p.len() / 2], a[a.len() / 2])
+    (stats(rp), stats(ra))
 }
 
 struct Run {
-    median: Duration,
-    p95: Duration,
+    /// Latency median and p95 (s), the paired baseline's median (s), ratio median and p95.
+    latency: (f64, f64),
+    baseline: f64,
+    ratio: (f64, f64),
     published: usize,
     n: usize,
 }
 
 /// One-character edits (a space in and out at the start of the line with the unsynchronized
 /// read); time from sending didChange to the publishDiagnostics of that version (or, if the
-/// diagnostics did not change, the test-mode `seam/analyzed` of that version).
-fn latency(dir: &Path, file: &Path, debounce_ms: u64, edits: usize) -> Run {
+/// diagnostics did not change, the test-mode `seam/analyzed` of that version). Each edit is
+/// paired with a baseline parse just before it, so load on the machine hits both alike.
+fn latency(dir: &Path, file: &Path, text: &str, debounce_ms: u64, edits: usize) -> Run {
     let mut c = LspClient::start(
         dir,
         LspClient::default_capabilities(),
@@ -184,9 +182,10 @@ fn latency(dir: &Path, file: &Path, debounce_ms: u64, edits: usize) -> Run {
     c.wait_analyzed(&uri, 1);
     let mut doc = Utf16Doc::new(&std::fs::read_to_string(file).unwrap());
     let line = doc.text.lines().position(|l| l.starts_with("alarm_q <= ovr_0")).unwrap();
-    let mut times = Vec::new();
+    let (mut lat, mut base, mut ratio) = (Vec::new(), Vec::new(), Vec::new());
     let mut published = 0;
     for i in 0..edits + 3 {
+        let b = parse_once(text, file).as_secs_f64();
         let v = i as i64 + 2;
         let ch = if i % 2 == 0 { doc.edit(line, 0, line, 0, " ") } else { doc.edit(line, 0, line, 1, "") };
         let before = c.publishes.len();
@@ -199,17 +198,21 @@ fn latency(dir: &Path, file: &Path, debounce_ms: u64, edits: usize) -> Run {
         if i < 3 {
             continue; // warm-up
         }
-        match publish {
+        let t = match publish {
             Some(k) => {
                 published += 1;
-                times.push(c.publish_at[k] - t0);
+                c.publish_at[k] - t0
             }
-            None => times.push(analysed - t0),
+            None => analysed - t0,
         }
+        .as_secs_f64();
+        lat.push(t);
+        base.push(b);
+        ratio.push(t / b);
     }
     let _ = c.shutdown_and_exit();
-    times.sort();
-    Run { median: percentile(&times, 0.5), p95: percentile(&times, 0.95), published, n: times.len() }
+    let n = lat.len();
+    Run { latency: stats(lat), baseline: stats(base).0, ratio: stats(ratio), published, n }
 }
 
 fn main() {
@@ -230,49 +233,46 @@ fn main() {
     .unwrap();
     let lines = text.lines().count();
 
-    let parse = parse_time(&text, &file, if quick { 3 } else { 9 });
-    let with_debounce = latency(&dir, &file, 100, edits);
-    let no_debounce = latency(&dir, &file, 0, edits);
-    let parse_after = parse_time(&text, &file, if quick { 3 } else { 9 });
+    let with_debounce = latency(&dir, &file, &text, 100, edits);
+    let no_debounce = latency(&dir, &file, &text, 0, edits);
     // big stack, as the server gives its parse threads (sv-parser recurses deeply)
     let (d2, f2, t2) = (dir.clone(), file.clone(), text.clone());
-    let (ours, analysis) = std::thread::Builder::new()
+    let (parse_ratio, analyze_ratio) = std::thread::Builder::new()
         .stack_size(1 << 29)
         .spawn(move || steps(&d2, &f2, &t2, if quick { 3 } else { 9 }))
         .unwrap()
         .join()
         .unwrap();
-    let parse = parse.min(parse_after);
 
     println!(
         "lsp_latency: one-character edit in a {lines}-line file ({} bytes), {} edits per row",
         text.len(),
         with_debounce.n
     );
-    println!("  baseline sv-parser parse (preprocess + parse), median: {:.1} ms", ms(parse));
     println!(
-        "  in-process, median: parse_file (sv-parser + model) {:.1} ms ({:.2}x), analyze {:.1} ms ({:.2}x)",
-        ms(ours),
-        ours.as_secs_f64() / parse.as_secs_f64(),
-        ms(analysis),
-        analysis.as_secs_f64() / parse.as_secs_f64()
+        "  baseline: sv-parser parse_sv_str (preprocess + parse) of the same text, run before each edit; median {:.1} ms",
+        no_debounce.baseline * 1e3
     );
     println!(
-        "  {:<28} {:>10} {:>10} {:>12} {:>12} {:>10}",
-        "edit to publish", "median ms", "p95 ms", "median/parse", "p95/parse", "published"
+        "  {:<27} {:>10} {:>8} {:>14} {:>11} {:>10}",
+        "edit to publish", "median ms", "p95 ms", "median ratio", "p95 ratio", "published"
     );
     for (name, r) in [("debounce 100 ms (default)", &with_debounce), ("debounce 0 ms", &no_debounce)] {
         println!(
-            "  {:<28} {:>10.1} {:>10.1} {:>12.2} {:>12.2} {:>7}/{}",
+            "  {:<27} {:>10.1} {:>8.1} {:>14.2} {:>11.2} {:>7}/{}",
             name,
-            ms(r.median),
-            ms(r.p95),
-            r.median.as_secs_f64() / parse.as_secs_f64(),
-            r.p95.as_secs_f64() / parse.as_secs_f64(),
+            r.latency.0 * 1e3,
+            r.latency.1 * 1e3,
+            r.ratio.0,
+            r.ratio.1,
             r.published,
             r.n
         );
     }
+    println!(
+        "  in-process, paired with the baseline: parse_file (sv-parser + model) {:.2}x (p95 {:.2}x), analyze {:.3}x (p95 {:.3}x)",
+        parse_ratio.0, parse_ratio.1, analyze_ratio.0, analyze_ratio.1
+    );
     let _ = std::fs::remove_dir_all(&dir);
 }
 

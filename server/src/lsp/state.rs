@@ -701,7 +701,9 @@ impl State {
         if let Some(j) = &self.inflight {
             return Some(j.deadline);
         }
-        if self.indexing.is_some() {
+        // nothing is parsed while indexing, before the first index, or after shutdown: wait
+        // for the next event (a due file must not make the loop spin)
+        if self.indexing.is_some() || !self.indexed_once || self.shutting_down {
             return None;
         }
         self.dirty.iter().filter_map(|k| self.entries.get(k)?.due).min()

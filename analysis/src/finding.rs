@@ -69,7 +69,11 @@ pub fn syntax_findings(model: &crate::model::FileModel) -> Vec<Finding> {
         .problems
         .iter()
         .map(|p| {
-            let sev = if p.hint { Severity::Hint } else { Severity::Error };
+            let sev = if p.hint {
+                Severity::Hint
+            } else {
+                Severity::Error
+            };
             Finding::new("syntax-error", sev, p.span.clone(), p.message.clone())
         })
         .collect()

@@ -3,14 +3,14 @@
 //! Nothing here does LSP, async or I/O beyond what the caller passes in (sv-parser itself reads
 //! `include files from the include directories the caller names).
 
-pub mod config;
-pub mod filelist;
-pub mod mtbf;
-pub mod model;
-pub mod parse;
-pub mod finding;
-pub mod report;
-pub mod design;
 pub mod cdc;
+pub mod config;
+pub mod design;
+pub mod filelist;
+pub mod finding;
+pub mod model;
+pub mod mtbf;
+pub mod parse;
+pub mod report;
 
 pub use design::analyze;

@@ -104,7 +104,9 @@ fn station(channels: usize) -> String {
     }
     s.push_str("module tg_bench_top (\n  input  wire        clk_adc,\n  input  wire        clk_sys,\n  input  wire        rst_n,\n  input  wire [15:0] adc_data,\n  input  wire        adc_valid,\n  output reg         alarm_q,\n  output wire [15:0] level_0\n);\n");
     for k in 0..channels {
-        s.push_str(&format!("  wire [15:0] lvl_{k};\n  wire new_{k}, surge_{k}, ovr_{k};\n"));
+        s.push_str(&format!(
+            "  wire [15:0] lvl_{k};\n  wire new_{k}, surge_{k}, ovr_{k};\n"
+        ));
         s.push_str(&format!(
             "  tg_bench_chan_{k} u_chan_{k} (.clk_adc(clk_adc), .clk_sys(clk_sys), .rst_n(rst_n), .adc_data(adc_data), .adc_valid(adc_valid),\n    .level_sys(lvl_{k}), .level_new(new_{k}), .surge(surge_{k}), .ovr(ovr_{k}));\n"
         ));
@@ -146,7 +148,13 @@ fn steps(dir: &Path, file: &Path, text: &str, runs: usize) -> ((f64, f64), (f64,
     for _ in 0..runs {
         let base = parse_once(text, file).as_secs_f64();
         let t0 = Instant::now();
-        let out = parse_file(&path, "rtl/tg_bench_station.v", text.as_bytes(), &macros, &opts);
+        let out = parse_file(
+            &path,
+            "rtl/tg_bench_station.v",
+            text.as_bytes(),
+            &macros,
+            &opts,
+        );
         let p = t0.elapsed().as_secs_f64();
         let models = vec![out.model];
         let t1 = Instant::now();
@@ -181,13 +189,21 @@ fn latency(dir: &Path, file: &Path, text: &str, debounce_ms: u64, edits: usize) 
     let uri = c.open(file, 1);
     c.wait_analyzed(&uri, 1);
     let mut doc = Utf16Doc::new(&std::fs::read_to_string(file).unwrap());
-    let line = doc.text.lines().position(|l| l.starts_with("alarm_q <= ovr_0")).unwrap();
+    let line = doc
+        .text
+        .lines()
+        .position(|l| l.starts_with("alarm_q <= ovr_0"))
+        .unwrap();
     let (mut lat, mut base, mut ratio) = (Vec::new(), Vec::new(), Vec::new());
     let mut published = 0;
     for i in 0..edits + 3 {
         let b = parse_once(text, file).as_secs_f64();
         let v = i as i64 + 2;
-        let ch = if i % 2 == 0 { doc.edit(line, 0, line, 0, " ") } else { doc.edit(line, 0, line, 1, "") };
+        let ch = if i % 2 == 0 {
+            doc.edit(line, 0, line, 0, " ")
+        } else {
+            doc.edit(line, 0, line, 1, "")
+        };
         let before = c.publishes.len();
         let t0 = Instant::now();
         c.change(&uri, v, json!([ch]));
@@ -212,7 +228,13 @@ fn latency(dir: &Path, file: &Path, text: &str, debounce_ms: u64, edits: usize) 
     }
     let _ = c.shutdown_and_exit();
     let n = lat.len();
-    Run { latency: stats(lat), baseline: stats(base).0, ratio: stats(ratio), published, n }
+    Run {
+        latency: stats(lat),
+        baseline: stats(base).0,
+        ratio: stats(ratio),
+        published,
+        n,
+    }
 }
 
 fn main() {
@@ -257,7 +279,10 @@ fn main() {
         "  {:<27} {:>10} {:>8} {:>14} {:>11} {:>10}",
         "edit to publish", "median ms", "p95 ms", "median ratio", "p95 ratio", "published"
     );
-    for (name, r) in [("debounce 100 ms (default)", &with_debounce), ("debounce 0 ms", &no_debounce)] {
+    for (name, r) in [
+        ("debounce 100 ms (default)", &with_debounce),
+        ("debounce 0 ms", &no_debounce),
+    ] {
         println!(
             "  {:<27} {:>10.1} {:>8.1} {:>14.2} {:>11.2} {:>7}/{}",
             name,

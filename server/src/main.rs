@@ -1,17 +1,21 @@
 //! `seam`: the CDC language server (`seam serve`) and batch checker (`seam check`).
 
 mod cli;
+mod lsp;
 mod output;
 mod project;
 mod worker;
-mod lsp;
 
 use std::process::ExitCode;
 
 use clap::{Parser, Subcommand};
 
 #[derive(Parser)]
-#[command(name = "seam", version, about = "Clock-domain-crossing checks for Verilog and SystemVerilog")]
+#[command(
+    name = "seam",
+    version,
+    about = "Clock-domain-crossing checks for Verilog and SystemVerilog"
+)]
 struct Cli {
     #[command(subcommand)]
     command: Command,
@@ -65,8 +69,15 @@ fn one_line_clap_error(e: &clap::Error) -> String {
     if e.kind() == clap::error::ErrorKind::DisplayHelpOnMissingArgumentOrSubcommand {
         use clap::CommandFactory;
         let cmd = Cli::command();
-        let names: Vec<&str> = cmd.get_subcommands().filter(|c| !c.is_hide_set()).map(|c| c.get_name()).collect();
-        return format!("missing subcommand ({}); try 'seam --help'", names.join(", "));
+        let names: Vec<&str> = cmd
+            .get_subcommands()
+            .filter(|c| !c.is_hide_set())
+            .map(|c| c.get_name())
+            .collect();
+        return format!(
+            "missing subcommand ({}); try 'seam --help'",
+            names.join(", ")
+        );
     }
     let text = e.render().to_string();
     let parts: Vec<&str> = text
@@ -77,5 +88,9 @@ fn one_line_clap_error(e: &clap::Error) -> String {
         .collect();
     let line = parts.join(" ");
     let line = line.strip_prefix("error: ").unwrap_or(&line).to_string();
-    if line.is_empty() { "bad arguments; try 'seam --help'".to_string() } else { format!("{line}; try 'seam --help'") }
+    if line.is_empty() {
+        "bad arguments; try 'seam --help'".to_string()
+    } else {
+        format!("{line}; try 'seam --help'")
+    }
 }

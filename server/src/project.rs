@@ -24,7 +24,11 @@ pub struct Project {
 pub struct LoadError(pub String);
 
 fn find_config(start: &Path) -> Option<PathBuf> {
-    let mut dir = if start.is_dir() { Some(start) } else { start.parent() };
+    let mut dir = if start.is_dir() {
+        Some(start)
+    } else {
+        start.parent()
+    };
     while let Some(d) = dir {
         let c = d.join("seam.toml");
         if c.is_file() {
@@ -45,7 +49,10 @@ pub fn display_path(root: &Path, p: &Path) -> String {
 }
 
 fn is_source(p: &Path) -> bool {
-    matches!(p.extension().and_then(|e| e.to_str()), Some("v") | Some("sv"))
+    matches!(
+        p.extension().and_then(|e| e.to_str()),
+        Some("v") | Some("sv")
+    )
 }
 
 fn all_files_under(dir: &Path) -> Vec<PathBuf> {
@@ -55,14 +62,20 @@ fn all_files_under(dir: &Path) -> Vec<PathBuf> {
         .filter_map(|e| e.ok())
         .filter(|e| e.file_type().is_file())
         .map(|e| e.into_path())
-        .filter(|p| !p.components().any(|c| c.as_os_str() == "target" || c.as_os_str() == ".git"))
+        .filter(|p| {
+            !p.components()
+                .any(|c| c.as_os_str() == "target" || c.as_os_str() == ".git")
+        })
         .collect()
 }
 
 pub fn load(paths: &[PathBuf], config_arg: Option<&Path>) -> Result<Project, LoadError> {
     for p in paths {
         if !p.exists() {
-            return Err(LoadError(format!("{}: no such file or directory", p.display())));
+            return Err(LoadError(format!(
+                "{}: no such file or directory",
+                p.display()
+            )));
         }
     }
     let cwd = std::env::current_dir().unwrap_or_else(|_| PathBuf::from("."));
@@ -76,12 +89,22 @@ pub fn load(paths: &[PathBuf], config_arg: Option<&Path>) -> Result<Project, Loa
         None => find_config(paths.first().map(|p| p.as_path()).unwrap_or(&cwd)),
     };
     let root = match (&config_path, paths.first()) {
-        (Some(c), _) => c.parent().map(|p| p.to_path_buf()).unwrap_or_else(|| cwd.clone()),
+        (Some(c), _) => c
+            .parent()
+            .map(|p| p.to_path_buf())
+            .unwrap_or_else(|| cwd.clone()),
         (None, Some(p)) if p.is_dir() => p.clone(),
-        (None, Some(p)) => p.parent().map(|x| x.to_path_buf()).unwrap_or_else(|| cwd.clone()),
+        (None, Some(p)) => p
+            .parent()
+            .map(|x| x.to_path_buf())
+            .unwrap_or_else(|| cwd.clone()),
         (None, None) => cwd.clone(),
     };
-    let root = if root.as_os_str().is_empty() { PathBuf::from(".") } else { root };
+    let root = if root.as_os_str().is_empty() {
+        PathBuf::from(".")
+    } else {
+        root
+    };
     let config = match &config_path {
         Some(c) => {
             let text = std::fs::read_to_string(c)
@@ -92,7 +115,12 @@ pub fn load(paths: &[PathBuf], config_arg: Option<&Path>) -> Result<Project, Loa
         None => Config::default(),
     };
 
-    let mut include_dirs: Vec<PathBuf> = config.design.include_dirs.iter().map(|d| root.join(d)).collect();
+    let mut include_dirs: Vec<PathBuf> = config
+        .design
+        .include_dirs
+        .iter()
+        .map(|d| root.join(d))
+        .collect();
     let mut defines: Vec<(String, Option<String>)> = vec![("SYNTHESIS".into(), None)];
     for (k, v) in &config.design.defines {
         defines.push((k.clone(), if v.is_empty() { None } else { Some(v.clone()) }));
@@ -125,13 +153,20 @@ pub fn load(paths: &[PathBuf], config_arg: Option<&Path>) -> Result<Project, Loa
     } else if !config.design.files.is_empty() {
         let mut gb = globset::GlobSetBuilder::new();
         for g in &config.design.files {
-            let glob = globset::Glob::new(g).map_err(|e| LoadError(format!("seam.toml: design.files: bad glob {g:?}: {e}")))?;
+            let glob = globset::Glob::new(g)
+                .map_err(|e| LoadError(format!("seam.toml: design.files: bad glob {g:?}: {e}")))?;
             gb.add(glob);
         }
-        let set = gb.build().map_err(|e| LoadError(format!("seam.toml: design.files: {e}")))?;
+        let set = gb
+            .build()
+            .map_err(|e| LoadError(format!("seam.toml: design.files: {e}")))?;
         let mut v: Vec<PathBuf> = all_files_under(&root)
             .into_iter()
-            .filter(|p| p.strip_prefix(&root).map(|r| set.is_match(r)).unwrap_or(false))
+            .filter(|p| {
+                p.strip_prefix(&root)
+                    .map(|r| set.is_match(r))
+                    .unwrap_or(false)
+            })
             .filter(|p| is_source(p))
             .collect();
         v.sort();
@@ -155,12 +190,25 @@ pub fn load(paths: &[PathBuf], config_arg: Option<&Path>) -> Result<Project, Loa
         filelist::compile_order(tagged)
     };
 
-    let jobs = files.iter().map(|p| Job { disk: p.clone(), display: display_path(&root, p) }).collect();
+    let jobs = files
+        .iter()
+        .map(|p| Job {
+            disk: p.clone(),
+            display: display_path(&root, p),
+        })
+        .collect();
     let macros = MacroTable::with_defines(defines.iter().map(|(k, v)| (k.as_str(), v.as_deref())));
     let options = ParseOptions {
         include_dirs,
         max_file_bytes: config.design.max_file_bytes as usize,
         ..ParseOptions::default()
     };
-    Ok(Project { root, config, config_path, jobs, options, macros })
+    Ok(Project {
+        root,
+        config,
+        config_path,
+        jobs,
+        options,
+        macros,
+    })
 }

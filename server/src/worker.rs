@@ -39,18 +39,24 @@ pub fn serve_one() -> ExitCode {
     if std::io::stdin().read_to_string(&mut input).is_err() {
         return ExitCode::from(2);
     }
-    let Ok(req) = serde_json::from_str::<Request>(&input) else { return ExitCode::from(2) };
-    let handle = std::thread::Builder::new().stack_size(STACK).spawn(move || {
-        let out = std::io::stdout();
-        let emit = |tag: &str, json: String| {
-            let mut o = out.lock();
-            let _ = writeln!(o, "{tag} {json}");
-            let _ = o.flush();
-        };
-        let (model, macros) = parse_in_place(&req, &mut |m| emit("M", serde_json::to_string(m).unwrap_or_default()));
-        let _ = macros;
-        emit("F", serde_json::to_string(&model).unwrap_or_default());
-    });
+    let Ok(req) = serde_json::from_str::<Request>(&input) else {
+        return ExitCode::from(2);
+    };
+    let handle = std::thread::Builder::new()
+        .stack_size(STACK)
+        .spawn(move || {
+            let out = std::io::stdout();
+            let emit = |tag: &str, json: String| {
+                let mut o = out.lock();
+                let _ = writeln!(o, "{tag} {json}");
+                let _ = o.flush();
+            };
+            let (model, macros) = parse_in_place(&req, &mut |m| {
+                emit("M", serde_json::to_string(m).unwrap_or_default())
+            });
+            let _ = macros;
+            emit("F", serde_json::to_string(&model).unwrap_or_default());
+        });
     match handle.map(|h| h.join()) {
         Ok(Ok(())) => ExitCode::SUCCESS,
         _ => ExitCode::from(3),
@@ -58,7 +64,10 @@ pub fn serve_one() -> ExitCode {
 }
 
 /// Read and parse one file in this process, reporting the macros as soon as they are known.
-fn parse_in_place(req: &Request, on_macros: &mut dyn FnMut(&MacroTable)) -> (FileModel, MacroTable) {
+fn parse_in_place(
+    req: &Request,
+    on_macros: &mut dyn FnMut(&MacroTable),
+) -> (FileModel, MacroTable) {
     let bytes = match std::fs::read(&req.disk) {
         Ok(b) => b,
         Err(e) => {
@@ -108,7 +117,18 @@ fn problem_model(display: &str, message: String) -> FileModel {
         problems: if message.is_empty() {
             vec![]
         } else {
-            vec![Problem { hint: false, span: Span { file: display.into(), line: 1, column: 1, end_line: 1, end_column: 1, ..Default::default() }, message }]
+            vec![Problem {
+                hint: false,
+                span: Span {
+                    file: display.into(),
+                    line: 1,
+                    column: 1,
+                    end_line: 1,
+                    end_column: 1,
+                    ..Default::default()
+                },
+                message,
+            }]
         },
         waivers: vec![],
         includes: vec![],
@@ -129,7 +149,13 @@ struct Running {
 
 /// Parse every job in compile order, `parallel` children at a time, each under `limit`.
 /// Macros defined by a file are in force for every later file.
-pub fn parse_all(jobs: &[Job], initial: MacroTable, opts: &ParseOptions, limit: Duration, parallel: usize) -> Vec<FileModel> {
+pub fn parse_all(
+    jobs: &[Job],
+    initial: MacroTable,
+    opts: &ParseOptions,
+    limit: Duration,
+    parallel: usize,
+) -> Vec<FileModel> {
     parse_all_with_progress(jobs, initial, opts, limit, parallel, &mut |_, _| {})
 }
 
@@ -143,7 +169,9 @@ pub fn parse_all_with_progress(
     progress: &mut dyn FnMut(usize, usize),
 ) -> Vec<FileModel> {
     let exe = std::env::current_exe().ok();
-    let Some(exe) = exe else { return parse_all_in_process(jobs, initial, opts) };
+    let Some(exe) = exe else {
+        return parse_all_in_process(jobs, initial, opts);
+    };
     let (tx, rx) = mpsc::channel::<Msg>();
     let mut models: Vec<Option<FileModel>> = vec![None; jobs.len()];
     let mut running: std::collections::BTreeMap<usize, Running> = Default::default();
@@ -169,7 +197,14 @@ pub fn parse_all_with_progress(
             };
             match spawn(&exe, &req, next, tx.clone()) {
                 Some(child) => {
-                    running.insert(next, Running { child, started: Instant::now(), sent_macros: false });
+                    running.insert(
+                        next,
+                        Running {
+                            child,
+                            started: Instant::now(),
+                            sent_macros: false,
+                        },
+                    );
                 }
                 None => {
                     // cannot spawn: parse here (no time limit, but still guarded)
@@ -212,7 +247,11 @@ pub fn parse_all_with_progress(
             Err(_) => {}
         }
         // enforce the time limit
-        let late: Vec<usize> = running.iter().filter(|(_, r)| r.started.elapsed() > limit).map(|(i, _)| *i).collect();
+        let late: Vec<usize> = running
+            .iter()
+            .filter(|(_, r)| r.started.elapsed() > limit)
+            .map(|(i, _)| *i)
+            .collect();
         for i in late {
             if let Some(mut r) = running.remove(&i) {
                 let _ = r.child.kill();
@@ -224,13 +263,19 @@ pub fn parse_all_with_progress(
             if models[i].is_none() {
                 models[i] = Some(problem_model(
                     &jobs[i].display,
-                    format!("parsing took longer than {} s and was stopped; file not analysed", limit.as_secs()),
+                    format!(
+                        "parsing took longer than {} s and was stopped; file not analysed",
+                        limit.as_secs()
+                    ),
                 ));
                 done += 1;
             }
         }
     }
-    models.into_iter().map(|m| m.unwrap_or_else(|| problem_model("?", "internal: no result".into()))).collect()
+    models
+        .into_iter()
+        .map(|m| m.unwrap_or_else(|| problem_model("?", "internal: no result".into())))
+        .collect()
 }
 
 fn spawn(exe: &PathBuf, req: &Request, i: usize, tx: mpsc::Sender<Msg>) -> Option<Child> {
@@ -263,7 +308,11 @@ fn spawn(exe: &PathBuf, req: &Request, i: usize, tx: mpsc::Sender<Msg>) -> Optio
             }
         }
         if !got_model {
-            let _ = tx.send(Msg::Died(i, "the parser crashed on this file (stack or memory exhausted?); file not analysed".into()));
+            let _ = tx.send(Msg::Died(
+                i,
+                "the parser crashed on this file (stack or memory exhausted?); file not analysed"
+                    .into(),
+            ));
         }
     });
     Some(child)
@@ -276,15 +325,29 @@ fn in_thread(req: Request) -> (FileModel, MacroTable) {
         .spawn(move || parse_in_place(&req, &mut |_| {}))
         .ok()
         .and_then(|h| h.join().ok())
-        .unwrap_or_else(|| (problem_model(&display, "the parser failed on this file".into()), MacroTable::default()))
+        .unwrap_or_else(|| {
+            (
+                problem_model(&display, "the parser failed on this file".into()),
+                MacroTable::default(),
+            )
+        })
 }
 
 /// Fallback when no worker can be started.
-pub fn parse_all_in_process(jobs: &[Job], initial: MacroTable, opts: &ParseOptions) -> Vec<FileModel> {
+pub fn parse_all_in_process(
+    jobs: &[Job],
+    initial: MacroTable,
+    opts: &ParseOptions,
+) -> Vec<FileModel> {
     let mut macros = initial;
     let mut out = Vec::new();
     for j in jobs {
-        let req = Request { disk: j.disk.clone(), display: j.display.clone(), macros: macros.clone(), opts: opts.clone() };
+        let req = Request {
+            disk: j.disk.clone(),
+            display: j.display.clone(),
+            macros: macros.clone(),
+            opts: opts.clone(),
+        };
         let (m, mac) = in_thread(req);
         macros = mac;
         out.push(m);

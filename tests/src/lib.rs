@@ -9,7 +9,10 @@ use seam_analysis::model::FileModel;
 use seam_analysis::parse::{self, MacroTable, ParseOptions};
 
 pub fn repo_root() -> PathBuf {
-    Path::new(env!("CARGO_MANIFEST_DIR")).parent().expect("repo root").to_path_buf()
+    Path::new(env!("CARGO_MANIFEST_DIR"))
+        .parent()
+        .expect("repo root")
+        .to_path_buf()
 }
 
 pub fn fixtures() -> PathBuf {
@@ -37,13 +40,20 @@ pub fn seam_bin() -> PathBuf {
 }
 
 pub fn seam(args: &[&str], cwd: &Path) -> Output {
-    Command::new(seam_bin()).args(args).current_dir(cwd).output().expect("run seam")
+    Command::new(seam_bin())
+        .args(args)
+        .current_dir(cwd)
+        .output()
+        .expect("run seam")
 }
 
 /// Parse files in order in this process, carrying macros from file to file (as `seam` does).
 pub fn parse_in_order(files: &[PathBuf], include_dirs: &[PathBuf]) -> Vec<FileModel> {
     let mut macros = MacroTable::with_defines([("SYNTHESIS", None)]);
-    let opts = ParseOptions { include_dirs: include_dirs.to_vec(), ..ParseOptions::default() };
+    let opts = ParseOptions {
+        include_dirs: include_dirs.to_vec(),
+        ..ParseOptions::default()
+    };
     let mut out = Vec::new();
     for f in files {
         let bytes = std::fs::read(f).expect("read fixture");
@@ -69,7 +79,9 @@ pub fn iverilog_compiles(files: &[PathBuf], include_dirs: &[PathBuf]) -> Result<
         c.arg(format!("-I{}", d.display()));
     }
     c.args(files);
-    let o = c.output().map_err(|e| format!("iverilog not runnable: {e}"))?;
+    let o = c
+        .output()
+        .map_err(|e| format!("iverilog not runnable: {e}"))?;
     if o.status.success() {
         Ok(())
     } else {
@@ -78,7 +90,11 @@ pub fn iverilog_compiles(files: &[PathBuf], include_dirs: &[PathBuf]) -> Result<
 }
 
 /// `verilator --lint-only` (outside reference: Verilator lints the design clean).
-pub fn verilator_lints(files: &[PathBuf], include_dirs: &[PathBuf], top: Option<&str>) -> Result<(), String> {
+pub fn verilator_lints(
+    files: &[PathBuf],
+    include_dirs: &[PathBuf],
+    top: Option<&str>,
+) -> Result<(), String> {
     let mut c = Command::new("verilator");
     c.arg("--lint-only");
     for d in include_dirs {
@@ -88,7 +104,9 @@ pub fn verilator_lints(files: &[PathBuf], include_dirs: &[PathBuf], top: Option<
         c.args(["--top-module", t]);
     }
     c.args(files);
-    let o = c.output().map_err(|e| format!("verilator not runnable: {e}"))?;
+    let o = c
+        .output()
+        .map_err(|e| format!("verilator not runnable: {e}"))?;
     if o.status.success() {
         Ok(())
     } else {

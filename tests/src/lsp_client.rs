@@ -98,7 +98,12 @@ impl LspClient {
         Self::start_args(root, capabilities, init_options, &[])
     }
 
-    pub fn start_args(root: &Path, capabilities: Value, init_options: Value, args: &[&str]) -> LspClient {
+    pub fn start_args(
+        root: &Path,
+        capabilities: Value,
+        init_options: Value,
+        args: &[&str],
+    ) -> LspClient {
         let mut child = Command::new(server_bin())
             .arg("serve")
             .args(args)
@@ -147,7 +152,10 @@ impl LspClient {
             responses: HashMap::new(),
         };
         let root_uri = file_uri(root);
-        let name = root.file_name().map(|n| n.to_string_lossy().to_string()).unwrap_or_default();
+        let name = root
+            .file_name()
+            .map(|n| n.to_string_lossy().to_string())
+            .unwrap_or_default();
         let r = c.request(
             "initialize",
             json!({
@@ -158,7 +166,10 @@ impl LspClient {
                 "initializationOptions": init_options,
             }),
         );
-        c.init_result = r.get("result").cloned().unwrap_or_else(|| panic!("initialize failed: {r}"));
+        c.init_result = r
+            .get("result")
+            .cloned()
+            .unwrap_or_else(|| panic!("initialize failed: {r}"));
         c.notify("initialized", json!({}));
         c
     }
@@ -179,7 +190,9 @@ impl LspClient {
     fn write(&mut self, v: &Value) {
         let body = serde_json::to_vec(v).expect("json");
         let stdin = self.stdin.as_mut().expect("stdin open");
-        stdin.write_all(format!("Content-Length: {}\r\n\r\n", body.len()).as_bytes()).expect("write header");
+        stdin
+            .write_all(format!("Content-Length: {}\r\n\r\n", body.len()).as_bytes())
+            .expect("write header");
         stdin.write_all(&body).expect("write body");
         stdin.flush().expect("flush");
     }
@@ -221,9 +234,12 @@ impl LspClient {
             if let Some(r) = self.responses.remove(&id) {
                 return r;
             }
-            let m = self
-                .next_message(deadline)
-                .unwrap_or_else(|| panic!("no response to request {id}\nserver log:\n{}", self.stderr_text()));
+            let m = self.next_message(deadline).unwrap_or_else(|| {
+                panic!(
+                    "no response to request {id}\nserver log:\n{}",
+                    self.stderr_text()
+                )
+            });
             self.dispatch(m);
         }
     }
@@ -248,7 +264,10 @@ impl LspClient {
                 let method = m["method"].as_str().unwrap_or("").to_string();
                 let result = match method.as_str() {
                     "workspace/configuration" => {
-                        let n = m["params"]["items"].as_array().map(|a| a.len()).unwrap_or(1);
+                        let n = m["params"]["items"]
+                            .as_array()
+                            .map(|a| a.len())
+                            .unwrap_or(1);
                         Some(Value::Array(vec![self.configuration.clone(); n]))
                     }
                     "window/workDoneProgress/create"
@@ -289,9 +308,12 @@ impl LspClient {
     pub fn wait_notification(&mut self, what: &str, mut pred: impl FnMut(&Value) -> bool) -> Value {
         let deadline = Instant::now() + WAIT;
         loop {
-            let m = self
-                .next_message(deadline)
-                .unwrap_or_else(|| panic!("timed out waiting for {what}\nserver log:\n{}", self.stderr_text()));
+            let m = self.next_message(deadline).unwrap_or_else(|| {
+                panic!(
+                    "timed out waiting for {what}\nserver log:\n{}",
+                    self.stderr_text()
+                )
+            });
             let is_note = m.get("method").is_some() && m.get("id").is_none();
             self.dispatch(m.clone());
             if is_note && pred(&m) {
@@ -319,7 +341,9 @@ impl LspClient {
         let uri = uri.to_string();
         self.wait_notification(&format!("analysis of {uri} v{version}"), |m| {
             m["method"] == "seam/analyzed"
-                && m["params"]["documents"][&uri]["parsed"].as_i64().is_some_and(|v| v >= version)
+                && m["params"]["documents"][&uri]["parsed"]
+                    .as_i64()
+                    .is_some_and(|v| v >= version)
                 && m["params"]["documents"][&uri]["pending"] == false
         })
     }
@@ -331,7 +355,10 @@ impl LspClient {
 
     /// Latest diagnostics for a URI (empty when none were published).
     pub fn diags(&self, uri: &str) -> Vec<Value> {
-        self.diagnostics.get(uri).and_then(|p| p["diagnostics"].as_array().cloned()).unwrap_or_default()
+        self.diagnostics
+            .get(uri)
+            .and_then(|p| p["diagnostics"].as_array().cloned())
+            .unwrap_or_default()
     }
 
     pub fn open(&mut self, path: &Path, version: i64) -> String {
@@ -342,7 +369,11 @@ impl LspClient {
     }
 
     pub fn open_text(&mut self, uri: &str, text: &str, version: i64) {
-        let lang = if uri.ends_with(".sv") { "systemverilog" } else { "verilog" };
+        let lang = if uri.ends_with(".sv") {
+            "systemverilog"
+        } else {
+            "verilog"
+        };
         self.notify(
             "textDocument/didOpen",
             json!({ "textDocument": { "uri": uri, "languageId": lang, "version": version, "text": text } }),
@@ -374,7 +405,10 @@ impl LspClient {
             }
             if Instant::now() > deadline {
                 let _ = self.child.kill();
-                panic!("seam serve did not exit\nserver log:\n{}", self.stderr_text());
+                panic!(
+                    "seam serve did not exit\nserver log:\n{}",
+                    self.stderr_text()
+                );
             }
             std::thread::sleep(Duration::from_millis(20));
         }
@@ -408,7 +442,9 @@ pub struct Utf16Doc {
 
 impl Utf16Doc {
     pub fn new(text: &str) -> Self {
-        Utf16Doc { text: text.to_string() }
+        Utf16Doc {
+            text: text.to_string(),
+        }
     }
 
     /// Byte offset of each line start.
@@ -512,7 +548,11 @@ fn walkdir_files(dir: &Path) -> Vec<PathBuf> {
 
 /// `seam ARGS` (the same binary as the server) with JSON on stdout.
 pub fn seam_json(args: &[&str], cwd: &Path) -> Option<Value> {
-    let out = Command::new(server_bin()).args(args).current_dir(cwd).output().expect("run seam");
+    let out = Command::new(server_bin())
+        .args(args)
+        .current_dir(cwd)
+        .output()
+        .expect("run seam");
     serde_json::from_slice(&out.stdout).ok()
 }
 
@@ -526,7 +566,9 @@ pub fn checker_findings(dir: &Path) -> Vec<Value> {
 /// The path of a URI relative to `root`, with `/` separators.
 pub fn rel_path(uri: &str, root: &Path) -> String {
     let root = file_uri(root);
-    uri.strip_prefix(&root).map(|s| s.trim_start_matches('/').to_string()).unwrap_or_else(|| uri.to_string())
+    uri.strip_prefix(&root)
+        .map(|s| s.trim_start_matches('/').to_string())
+        .unwrap_or_else(|| uri.to_string())
 }
 
 /// (file, rule, line, column, end line, end column).

@@ -21,7 +21,9 @@ fn generate(dir: &std::path::Path, bad: &BTreeSet<usize>) -> Vec<(String, u64)> 
             "module gen_m{k} (input clk_a, input clk_b, input a_in, output reg [7:0] b_cnt);\n"
         ));
         v.push_str("  reg ra;\n  always @(posedge clk_a) ra <= ~a_in;\n");
-        v.push_str("  reg s1, s2;\n  always @(posedge clk_b) begin\n    s1 <= ra;\n    s2 <= s1;\n  end\n");
+        v.push_str(
+            "  reg s1, s2;\n  always @(posedge clk_b) begin\n    s1 <= ra;\n    s2 <= s1;\n  end\n",
+        );
         if bad.contains(&k) {
             v.push_str("  reg raw;\n");
             v.push_str("  always @(posedge clk_b) raw <= ra;\n");
@@ -54,7 +56,13 @@ fn check(dir: &std::path::Path) -> Vec<(String, String, u64)> {
         .as_array()
         .unwrap()
         .iter()
-        .map(|f| (f["rule"].as_str().unwrap().into(), f["file"].as_str().unwrap().into(), f["line"].as_u64().unwrap()))
+        .map(|f| {
+            (
+                f["rule"].as_str().unwrap().into(),
+                f["file"].as_str().unwrap().into(),
+                f["line"].as_u64().unwrap(),
+            )
+        })
         .collect()
 }
 
@@ -81,8 +89,10 @@ fn every_injected_crossing_is_found_and_nothing_else() {
         let d = tempfile::tempdir().unwrap();
         let expected = generate(d.path(), &bad);
         let got = check(d.path());
-        let mut want: Vec<(String, String, u64)> =
-            expected.into_iter().map(|(f, l)| ("unsynchronized-crossing".to_string(), f, l)).collect();
+        let mut want: Vec<(String, String, u64)> = expected
+            .into_iter()
+            .map(|(f, l)| ("unsynchronized-crossing".to_string(), f, l))
+            .collect();
         let mut got_sorted = got.clone();
         want.sort();
         got_sorted.sort();

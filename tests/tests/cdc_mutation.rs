@@ -28,8 +28,13 @@ const TWO_CLK: &str = "[inputs]\novr_in = \"clk_adc\"\nup_in = \"clk_link\"\nrdy
 
 fn findings(dir: &Path) -> Vec<(String, String, u64, String)> {
     let out = seam(&["check", "--format", "json"], dir);
-    let v: serde_json::Value = serde_json::from_slice(&out.stdout)
-        .unwrap_or_else(|_| panic!("json: {}{}", String::from_utf8_lossy(&out.stdout), String::from_utf8_lossy(&out.stderr)));
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap_or_else(|_| {
+        panic!(
+            "json: {}{}",
+            String::from_utf8_lossy(&out.stdout),
+            String::from_utf8_lossy(&out.stderr)
+        )
+    });
     v["findings"]
         .as_array()
         .unwrap()
@@ -61,29 +66,55 @@ fn compiles(dir: &Path) {
     let files: Vec<_> = std::fs::read_dir(dir)
         .unwrap()
         .filter_map(|e| e.ok().map(|e| e.path()))
-        .filter(|p| matches!(p.extension().and_then(|x| x.to_str()), Some("v") | Some("sv")))
+        .filter(|p| {
+            matches!(
+                p.extension().and_then(|x| x.to_str()),
+                Some("v") | Some("sv")
+            )
+        })
         .collect();
-    iverilog_compiles(&files, &[]).unwrap_or_else(|e| panic!("iverilog rejects {}: {e}", dir.display()));
+    iverilog_compiles(&files, &[])
+        .unwrap_or_else(|e| panic!("iverilog rejects {}: {e}", dir.display()));
 }
 
 fn run(base: Base<'_>, mutants: &[Mutant]) {
     let d = setup(&base, base.toml);
     compiles(d.path());
     let f = findings(d.path());
-    assert!(f.is_empty(), "original {:?} must be silent: {f:#?}", base.files);
+    assert!(
+        f.is_empty(),
+        "original {:?} must be silent: {f:#?}",
+        base.files
+    );
     for m in mutants {
         let d = setup(&base, m.toml.unwrap_or(base.toml));
         let name = Path::new(m.file).file_name().unwrap();
         let p = d.path().join(name);
         let text = std::fs::read_to_string(&p).unwrap();
-        assert!(m.old.is_empty() || text.contains(m.old), "{}: pattern {:?} not in {}", m.name, m.old, m.file);
-        let mutated = if m.old.is_empty() { text } else { text.replacen(m.old, m.new, 1) };
+        assert!(
+            m.old.is_empty() || text.contains(m.old),
+            "{}: pattern {:?} not in {}",
+            m.name,
+            m.old,
+            m.file
+        );
+        let mutated = if m.old.is_empty() {
+            text
+        } else {
+            text.replacen(m.old, m.new, 1)
+        };
         std::fs::write(&p, &mutated).unwrap();
         compiles(d.path());
-        let line = mutated.lines().position(|l| l.contains(m.anchor)).unwrap_or_else(|| panic!("{}: anchor {:?}", m.name, m.anchor)) as u64 + 1;
+        let line = mutated
+            .lines()
+            .position(|l| l.contains(m.anchor))
+            .unwrap_or_else(|| panic!("{}: anchor {:?}", m.name, m.anchor))
+            as u64
+            + 1;
         let got = findings(d.path());
         assert!(
-            got.iter().any(|(r, file, l, _)| r == m.rule && file == name.to_str().unwrap() && *l == line),
+            got.iter()
+                .any(|(r, file, l, _)| r == m.rule && file == name.to_str().unwrap() && *l == line),
             "mutant {}: expected {} at {}:{line}, got {got:#?}",
             m.name,
             m.rule,
@@ -102,11 +133,38 @@ fn run(base: Base<'_>, mutants: &[Mutant]) {
 fn separate_statements_chain() {
     let f = "good/g1_separate.v";
     run(
-        Base { files: &[f], toml: TWO_CLK },
+        Base {
+            files: &[f],
+            toml: TWO_CLK,
+        },
         &[
-            Mutant { name: "drop a stage", file: f, old: "      s2 <= s1;\n      cnt <= cnt + {7'd0, s2};", new: "      cnt <= cnt + {7'd0, s1};", toml: None, rule: "unsynchronized-crossing", anchor: "s1 <= ovr_q;" },
-            Mutant { name: "tap stage 1", file: f, old: "      cnt <= cnt + {7'd0, s2};", new: "      cnt <= cnt + {7'd0, s2 & s1};", toml: None, rule: "synchronizer-stage-fanout", anchor: "s2 & s1" },
-            Mutant { name: "gate stage 1 with another source bit", file: f, old: "s1 <= ovr_q;", new: "s1 <= ovr_q ^ ovr_in;", toml: None, rule: "logic-before-synchronizer", anchor: "s1 <= ovr_q ^ ovr_in;" },
+            Mutant {
+                name: "drop a stage",
+                file: f,
+                old: "      s2 <= s1;\n      cnt <= cnt + {7'd0, s2};",
+                new: "      cnt <= cnt + {7'd0, s1};",
+                toml: None,
+                rule: "unsynchronized-crossing",
+                anchor: "s1 <= ovr_q;",
+            },
+            Mutant {
+                name: "tap stage 1",
+                file: f,
+                old: "      cnt <= cnt + {7'd0, s2};",
+                new: "      cnt <= cnt + {7'd0, s2 & s1};",
+                toml: None,
+                rule: "synchronizer-stage-fanout",
+                anchor: "s2 & s1",
+            },
+            Mutant {
+                name: "gate stage 1 with another source bit",
+                file: f,
+                old: "s1 <= ovr_q;",
+                new: "s1 <= ovr_q ^ ovr_in;",
+                toml: None,
+                rule: "logic-before-synchronizer",
+                anchor: "s1 <= ovr_q ^ ovr_in;",
+            },
         ],
     );
 }
@@ -115,10 +173,29 @@ fn separate_statements_chain() {
 fn concatenation_shift_chain() {
     let f = "good/g2_concat.sv";
     run(
-        Base { files: &[f], toml: TWO_CLK },
+        Base {
+            files: &[f],
+            toml: TWO_CLK,
+        },
         &[
-            Mutant { name: "gate stage 1 with another source bit", file: f, old: "up_s <= {up_s[0], up_q};", new: "up_s <= {up_s[0], up_q & other_q};", toml: None, rule: "logic-before-synchronizer", anchor: "up_q & other_q" },
-            Mutant { name: "drop a stage", file: f, old: "cnt <= cnt + {7'd0, up_s[1]};", new: "cnt <= cnt + {7'd0, up_s[0]};", toml: None, rule: "synchronizer-stage-fanout", anchor: "up_s[0]};" },
+            Mutant {
+                name: "gate stage 1 with another source bit",
+                file: f,
+                old: "up_s <= {up_s[0], up_q};",
+                new: "up_s <= {up_s[0], up_q & other_q};",
+                toml: None,
+                rule: "logic-before-synchronizer",
+                anchor: "up_q & other_q",
+            },
+            Mutant {
+                name: "drop a stage",
+                file: f,
+                old: "cnt <= cnt + {7'd0, up_s[1]};",
+                new: "cnt <= cnt + {7'd0, up_s[0]};",
+                toml: None,
+                rule: "synchronizer-stage-fanout",
+                anchor: "up_s[0]};",
+            },
         ],
     );
 }
@@ -127,10 +204,29 @@ fn concatenation_shift_chain() {
 fn chain_across_processes() {
     let f = "good/g3_two_procs.v";
     run(
-        Base { files: &[f], toml: TWO_CLK },
+        Base {
+            files: &[f],
+            toml: TWO_CLK,
+        },
         &[
-            Mutant { name: "clock a stage on the other edge", file: f, old: "always @(posedge clk_sys) rdy_s2 <= rdy_s1;", new: "always @(negedge clk_sys) rdy_s2 <= rdy_s1;", toml: None, rule: "unsynchronized-crossing", anchor: "rdy_s1 <= rdy_q" },
-            Mutant { name: "gate stage 1 with another source bit", file: f, old: "rdy_s1 <= rdy_q;", new: "rdy_s1 <= rdy_q | spare_q;", toml: None, rule: "logic-before-synchronizer", anchor: "rdy_s1 <= rdy_q | spare_q" },
+            Mutant {
+                name: "clock a stage on the other edge",
+                file: f,
+                old: "always @(posedge clk_sys) rdy_s2 <= rdy_s1;",
+                new: "always @(negedge clk_sys) rdy_s2 <= rdy_s1;",
+                toml: None,
+                rule: "unsynchronized-crossing",
+                anchor: "rdy_s1 <= rdy_q",
+            },
+            Mutant {
+                name: "gate stage 1 with another source bit",
+                file: f,
+                old: "rdy_s1 <= rdy_q;",
+                new: "rdy_s1 <= rdy_q | spare_q;",
+                toml: None,
+                rule: "logic-before-synchronizer",
+                anchor: "rdy_s1 <= rdy_q | spare_q",
+            },
         ],
     );
 }
@@ -139,10 +235,29 @@ fn chain_across_processes() {
 fn chain_through_wrapper_cells() {
     let f = "good/g4_cells.v";
     run(
-        Base { files: &[f], toml: TWO_CLK },
+        Base {
+            files: &[f],
+            toml: TWO_CLK,
+        },
         &[
-            Mutant { name: "drop a stage", file: f, old: "cnt <= cnt + {7'd0, m2};", new: "cnt <= cnt + {7'd0, m1};", toml: None, rule: "synchronizer-stage-fanout", anchor: "{7'd0, m1}" },
-            Mutant { name: "gate stage 1 with another source bit", file: f, old: ".d(lvl_q), .q(m1)", new: ".d(lvl_q & aux_q), .q(m1)", toml: None, rule: "logic-before-synchronizer", anchor: "always @(posedge ck) q <= d;" },
+            Mutant {
+                name: "drop a stage",
+                file: f,
+                old: "cnt <= cnt + {7'd0, m2};",
+                new: "cnt <= cnt + {7'd0, m1};",
+                toml: None,
+                rule: "synchronizer-stage-fanout",
+                anchor: "{7'd0, m1}",
+            },
+            Mutant {
+                name: "gate stage 1 with another source bit",
+                file: f,
+                old: ".d(lvl_q), .q(m1)",
+                new: ".d(lvl_q & aux_q), .q(m1)",
+                toml: None,
+                rule: "logic-before-synchronizer",
+                anchor: "always @(posedge ck) q <= d;",
+            },
         ],
     );
 }
@@ -151,10 +266,29 @@ fn chain_through_wrapper_cells() {
 fn edge_detect_on_last_stage() {
     let f = "good/g5_edge.sv";
     run(
-        Base { files: &[f], toml: "[clocks]\nclk_adc = {}\nclk_sys = {}\n" },
+        Base {
+            files: &[f],
+            toml: "[clocks]\nclk_adc = {}\nclk_sys = {}\n",
+        },
         &[
-            Mutant { name: "edge detect taps stage 1", file: f, old: "wire pulse = t2 ^ t3;", new: "wire pulse = t1 ^ t2;", toml: None, rule: "synchronizer-stage-fanout", anchor: "wire pulse = t1 ^ t2;" },
-            Mutant { name: "gate stage 1 with another source bit", file: f, old: "t1 <= tgl;", new: "t1 <= tgl ^ extra;", toml: None, rule: "logic-before-synchronizer", anchor: "t1 <= tgl ^ extra;" },
+            Mutant {
+                name: "edge detect taps stage 1",
+                file: f,
+                old: "wire pulse = t2 ^ t3;",
+                new: "wire pulse = t1 ^ t2;",
+                toml: None,
+                rule: "synchronizer-stage-fanout",
+                anchor: "wire pulse = t1 ^ t2;",
+            },
+            Mutant {
+                name: "gate stage 1 with another source bit",
+                file: f,
+                old: "t1 <= tgl;",
+                new: "t1 <= tgl ^ extra;",
+                toml: None,
+                rule: "logic-before-synchronizer",
+                anchor: "t1 <= tgl ^ extra;",
+            },
         ],
     );
 }
@@ -163,10 +297,29 @@ fn edge_detect_on_last_stage() {
 fn source_bit_gated_by_destination_terms() {
     let f = "good/g6_local_gate.v";
     run(
-        Base { files: &[f], toml: TWO_CLK },
+        Base {
+            files: &[f],
+            toml: TWO_CLK,
+        },
         &[
-            Mutant { name: "gate with a second source bit", file: f, old: "r1 <= req_q & en_sys;", new: "r1 <= req_q & req2_q;", toml: None, rule: "logic-before-synchronizer", anchor: "r1 <= req_q & req2_q;" },
-            Mutant { name: "drop a stage", file: f, old: "cnt <= cnt + {7'd0, r2};", new: "cnt <= cnt + {7'd0, r1};", toml: None, rule: "synchronizer-stage-fanout", anchor: "{7'd0, r1}" },
+            Mutant {
+                name: "gate with a second source bit",
+                file: f,
+                old: "r1 <= req_q & en_sys;",
+                new: "r1 <= req_q & req2_q;",
+                toml: None,
+                rule: "logic-before-synchronizer",
+                anchor: "r1 <= req_q & req2_q;",
+            },
+            Mutant {
+                name: "drop a stage",
+                file: f,
+                old: "cnt <= cnt + {7'd0, r2};",
+                new: "cnt <= cnt + {7'd0, r1};",
+                toml: None,
+                rule: "synchronizer-stage-fanout",
+                anchor: "{7'd0, r1}",
+            },
         ],
     );
 }
@@ -177,8 +330,19 @@ fn clocks_in_one_group() {
     let grouped = "[clocks]\nclk_sys = { frequency = \"100 MHz\", group = \"main\" }\nclk_half = { frequency = \"50 MHz\", group = \"main\" }\n\n[inputs]\nd_in = \"clk_sys\"\n";
     let split = "[clocks]\nclk_sys = { frequency = \"100 MHz\", group = \"main\" }\nclk_half = { frequency = \"50 MHz\" }\n\n[inputs]\nd_in = \"clk_sys\"\n";
     run(
-        Base { files: &[f], toml: grouped },
-        &[Mutant { name: "move a clock out of its group", file: f, old: "", new: "", toml: Some(split), rule: "unsynchronized-crossing", anchor: "d_h <= d_q" }],
+        Base {
+            files: &[f],
+            toml: grouped,
+        },
+        &[Mutant {
+            name: "move a clock out of its group",
+            file: f,
+            old: "",
+            new: "",
+            toml: Some(split),
+            rule: "unsynchronized-crossing",
+            anchor: "d_h <= d_q",
+        }],
     );
 }
 
@@ -189,8 +353,24 @@ fn three_stage_chain_for_async_input() {
     run(
         Base { files: &[f], toml },
         &[
-            Mutant { name: "drop a stage", file: f, old: "cnt <= cnt + {7'd0, a3};", new: "cnt <= cnt + {7'd0, a2};", toml: None, rule: "synchronizer-stage-fanout", anchor: "{7'd0, a2}" },
-            Mutant { name: "drop the third stage", file: f, old: "    a3 <= a2;\n  end\n  always @(posedge clk_sys) cnt <= cnt + {7'd0, a3};", new: "  end\n  always @(posedge clk_sys) cnt <= cnt + {7'd0, a2};", toml: None, rule: "unsynchronized-crossing", anchor: "a1 <= storm_n;" },
+            Mutant {
+                name: "drop a stage",
+                file: f,
+                old: "cnt <= cnt + {7'd0, a3};",
+                new: "cnt <= cnt + {7'd0, a2};",
+                toml: None,
+                rule: "synchronizer-stage-fanout",
+                anchor: "{7'd0, a2}",
+            },
+            Mutant {
+                name: "drop the third stage",
+                file: f,
+                old: "    a3 <= a2;\n  end\n  always @(posedge clk_sys) cnt <= cnt + {7'd0, a3};",
+                new: "  end\n  always @(posedge clk_sys) cnt <= cnt + {7'd0, a2};",
+                toml: None,
+                rule: "unsynchronized-crossing",
+                anchor: "a1 <= storm_n;",
+            },
         ],
     );
 }
@@ -199,10 +379,29 @@ fn three_stage_chain_for_async_input() {
 fn crossing_across_files_and_hierarchy() {
     let files = &["hier/h_src.v", "hier/h_dst.v", "hier/h_top.v"];
     run(
-        Base { files, toml: TWO_CLK },
+        Base {
+            files,
+            toml: TWO_CLK,
+        },
         &[
-            Mutant { name: "drop a stage", file: "hier/h_dst.v", old: "cnt <= cnt + {7'd0, h2};", new: "cnt <= cnt + {7'd0, h1};", toml: None, rule: "synchronizer-stage-fanout", anchor: "{7'd0, h1}" },
-            Mutant { name: "no synchronizer", file: "hier/h_dst.v", old: "cnt <= cnt + {7'd0, h2};", new: "cnt <= cnt + {7'd0, hi};", toml: None, rule: "unsynchronized-crossing", anchor: "{7'd0, hi}" },
+            Mutant {
+                name: "drop a stage",
+                file: "hier/h_dst.v",
+                old: "cnt <= cnt + {7'd0, h2};",
+                new: "cnt <= cnt + {7'd0, h1};",
+                toml: None,
+                rule: "synchronizer-stage-fanout",
+                anchor: "{7'd0, h1}",
+            },
+            Mutant {
+                name: "no synchronizer",
+                file: "hier/h_dst.v",
+                old: "cnt <= cnt + {7'd0, h2};",
+                new: "cnt <= cnt + {7'd0, hi};",
+                toml: None,
+                rule: "unsynchronized-crossing",
+                anchor: "{7'd0, hi}",
+            },
         ],
     );
 }
@@ -211,10 +410,29 @@ fn crossing_across_files_and_hierarchy() {
 fn chain_of_separate_registers_as_one_concatenation() {
     let f = "good/g9_concat_regs.v";
     run(
-        Base { files: &[f], toml: TWO_CLK },
+        Base {
+            files: &[f],
+            toml: TWO_CLK,
+        },
         &[
-            Mutant { name: "tap stage 1", file: f, old: "cnt <= cnt + {7'd0, f2};", new: "cnt <= cnt + {7'd0, f1};", toml: None, rule: "synchronizer-stage-fanout", anchor: "{7'd0, f1}" },
-            Mutant { name: "gate stage 1 with another source bit", file: f, old: "{f1, flood_q};", new: "{f1, flood_q & spare_q};", toml: None, rule: "logic-before-synchronizer", anchor: "flood_q & spare_q" },
+            Mutant {
+                name: "tap stage 1",
+                file: f,
+                old: "cnt <= cnt + {7'd0, f2};",
+                new: "cnt <= cnt + {7'd0, f1};",
+                toml: None,
+                rule: "synchronizer-stage-fanout",
+                anchor: "{7'd0, f1}",
+            },
+            Mutant {
+                name: "gate stage 1 with another source bit",
+                file: f,
+                old: "{f1, flood_q};",
+                new: "{f1, flood_q & spare_q};",
+                toml: None,
+                rule: "logic-before-synchronizer",
+                anchor: "flood_q & spare_q",
+            },
         ],
     );
 }

@@ -38,11 +38,16 @@ fn load_json(path: &Path) -> Value {
 /// A validator for `schema` (the `jsonschema` crate picks the draft from `$schema`), with
 /// `format` keywords checked too (uri, uri-reference...).
 fn validator(schema: &Value) -> jsonschema::Validator {
-    jsonschema::options().should_validate_formats(true).build(schema).expect("schema compiles")
+    jsonschema::options()
+        .should_validate_formats(true)
+        .build(schema)
+        .expect("schema compiles")
 }
 
 fn errors(v: &jsonschema::Validator, doc: &Value) -> Vec<String> {
-    v.iter_errors(doc).map(|e| format!("{} at {}", e, e.instance_path())).collect()
+    v.iter_errors(doc)
+        .map(|e| format!("{} at {}", e, e.instance_path()))
+        .collect()
 }
 
 fn check_schema() -> jsonschema::Validator {
@@ -74,7 +79,10 @@ fn escape_lone_bracket(v: &mut Value) {
 
 fn sarif_schema() -> jsonschema::Validator {
     let mut schema = load_json(&fixtures().join("schema/sarif-schema-2.1.0.json"));
-    assert_eq!(schema["title"], "Static Analysis Results Format (SARIF) Version 2.1.0 JSON Schema");
+    assert_eq!(
+        schema["title"],
+        "Static Analysis Results Format (SARIF) Version 2.1.0 JSON Schema"
+    );
     escape_lone_bracket(&mut schema);
     validator(&schema)
 }
@@ -86,7 +94,8 @@ fn stdout_json(out: &Output, what: &str) -> Value {
         "{what}: exit {code:?}\nstderr: {}",
         String::from_utf8_lossy(&out.stderr)
     );
-    serde_json::from_slice(&out.stdout).unwrap_or_else(|e| panic!("{what}: stdout is not JSON: {e}"))
+    serde_json::from_slice(&out.stdout)
+        .unwrap_or_else(|e| panic!("{what}: stdout is not JSON: {e}"))
 }
 
 fn run_format(dir: &Path, format: &str) -> (Value, Option<i32>) {
@@ -95,7 +104,10 @@ fn run_format(dir: &Path, format: &str) -> (Value, Option<i32>) {
 
 fn run_format_on(dir: &Path, path: &str, format: &str) -> (Value, Option<i32>) {
     let out = seam(&["check", path, "--format", format], dir);
-    let v = stdout_json(&out, &format!("{} [{path}] --format {format}", dir.display()));
+    let v = stdout_json(
+        &out,
+        &format!("{} [{path}] --format {format}", dir.display()),
+    );
     (v, out.status.code())
 }
 
@@ -105,7 +117,11 @@ fn run_format_on(dir: &Path, path: &str, format: &str) -> (Value, Option<i32>) {
 /// source file at a time, since such folders hold one small design per file.
 fn designs() -> Vec<(PathBuf, String)> {
     let mut out = vec![(demo(), ".".to_string())];
-    for e in walkdir::WalkDir::new(fixtures()).sort_by_file_name().into_iter().filter_map(|e| e.ok()) {
+    for e in walkdir::WalkDir::new(fixtures())
+        .sort_by_file_name()
+        .into_iter()
+        .filter_map(|e| e.ok())
+    {
         if !e.file_type().is_dir() {
             continue;
         }
@@ -118,7 +134,13 @@ fn designs() -> Vec<(PathBuf, String)> {
             .map(|rd| {
                 rd.filter_map(|x| x.ok())
                     .map(|x| x.path())
-                    .filter(|q| q.is_file() && matches!(q.extension().and_then(|x| x.to_str()), Some("v") | Some("sv")))
+                    .filter(|q| {
+                        q.is_file()
+                            && matches!(
+                                q.extension().and_then(|x| x.to_str()),
+                                Some("v") | Some("sv")
+                            )
+                    })
                     .map(|q| q.file_name().unwrap().to_string_lossy().to_string())
                     .collect()
             })
@@ -177,13 +199,26 @@ fn json_of_every_fixture_validates_against_the_published_schema() {
         }
         let (v, code) = run_format_on(&d.0, &d.1, "json");
         let errs = errors(&schema, &v);
-        assert!(errs.is_empty(), "{}: JSON does not match docs/schema/check-v1.json:\n{}", design_name(&d), errs.join("\n"));
+        assert!(
+            errs.is_empty(),
+            "{}: JSON does not match docs/schema/check-v1.json:\n{}",
+            design_name(&d),
+            errs.join("\n")
+        );
         // docs/cli.md: exit 1 exactly when an unwaived finding at error severity is left.
         let expect = if unwaived_errors(&v) > 0 { 1 } else { 0 };
-        assert_eq!(code, Some(expect), "{}: exit code vs findings", design_name(&d));
+        assert_eq!(
+            code,
+            Some(expect),
+            "{}: exit code vs findings",
+            design_name(&d)
+        );
         checked += 1;
     }
-    assert!(checked >= 2, "expected the demo and the fixtures, checked {checked}");
+    assert!(
+        checked >= 2,
+        "expected the demo and the fixtures, checked {checked}"
+    );
 }
 
 /// The schema is not vacuous: each broken variant of a real report is rejected by it.
@@ -199,32 +234,80 @@ fn the_json_schema_rejects_reports_that_break_it() {
         "related": []
     });
     let mut with_finding = good.clone();
-    with_finding["findings"].as_array_mut().unwrap().push(finding.clone());
-    assert!(errors(&schema, &with_finding).is_empty(), "a hand-made valid finding is accepted");
+    with_finding["findings"]
+        .as_array_mut()
+        .unwrap()
+        .push(finding.clone());
+    assert!(
+        errors(&schema, &with_finding).is_empty(),
+        "a hand-made valid finding is accepted"
+    );
     let mutants: Vec<(&str, Mutation)> = vec![
-        ("version 2", Box::new(|v: &mut Value| v["version"] = 2.into())),
-        ("no clocks", Box::new(|v: &mut Value| {
-            v.as_object_mut().unwrap().remove("clocks");
-        })),
-        ("unknown top key", Box::new(|v: &mut Value| v["extra"] = 1.into())),
-        ("finding without signal", Box::new(|v: &mut Value| {
-            v["findings"].as_array_mut().unwrap().last_mut().unwrap().as_object_mut().unwrap().remove("signal");
-        })),
-        ("line 0", Box::new(|v: &mut Value| v["findings"].as_array_mut().unwrap().last_mut().unwrap()["line"] = 0.into())),
-        ("unknown rule", Box::new(|v: &mut Value| v["findings"].as_array_mut().unwrap().last_mut().unwrap()["rule"] = "no-such-rule".into())),
-        ("bad severity", Box::new(|v: &mut Value| v["findings"].as_array_mut().unwrap().last_mut().unwrap()["severity"] = "fatal".into())),
-        ("bad crossing status", Box::new(|v: &mut Value| {
-            v["crossings"].as_array_mut().unwrap().push(serde_json::json!({
+        (
+            "version 2",
+            Box::new(|v: &mut Value| v["version"] = 2.into()),
+        ),
+        (
+            "no clocks",
+            Box::new(|v: &mut Value| {
+                v.as_object_mut().unwrap().remove("clocks");
+            }),
+        ),
+        (
+            "unknown top key",
+            Box::new(|v: &mut Value| v["extra"] = 1.into()),
+        ),
+        (
+            "finding without signal",
+            Box::new(|v: &mut Value| {
+                v["findings"]
+                    .as_array_mut()
+                    .unwrap()
+                    .last_mut()
+                    .unwrap()
+                    .as_object_mut()
+                    .unwrap()
+                    .remove("signal");
+            }),
+        ),
+        (
+            "line 0",
+            Box::new(|v: &mut Value| {
+                v["findings"].as_array_mut().unwrap().last_mut().unwrap()["line"] = 0.into()
+            }),
+        ),
+        (
+            "unknown rule",
+            Box::new(|v: &mut Value| {
+                v["findings"].as_array_mut().unwrap().last_mut().unwrap()["rule"] =
+                    "no-such-rule".into()
+            }),
+        ),
+        (
+            "bad severity",
+            Box::new(|v: &mut Value| {
+                v["findings"].as_array_mut().unwrap().last_mut().unwrap()["severity"] =
+                    "fatal".into()
+            }),
+        ),
+        (
+            "bad crossing status",
+            Box::new(|v: &mut Value| {
+                v["crossings"].as_array_mut().unwrap().push(serde_json::json!({
                 "source_domain": "a", "destination_domain": "b", "source": "x", "destination": "y",
                 "status": "maybe", "scheme": null, "stages": null, "bits": 1, "file": "f.v",
                 "line": 1, "column": 1, "end_line": 1, "end_column": 2
             }));
-        })),
+            }),
+        ),
     ];
     for (what, m) in mutants {
         let mut v = with_finding.clone();
         m(&mut v);
-        assert!(!errors(&schema, &v).is_empty(), "schema accepted a report with {what}");
+        assert!(
+            !errors(&schema, &v).is_empty(),
+            "schema accepted a report with {what}"
+        );
     }
 }
 
@@ -232,8 +315,12 @@ fn the_json_schema_rejects_reports_that_break_it() {
 #[test]
 fn the_json_schema_lists_exactly_the_rules() {
     let s = load_json(&repo_root().join("docs/schema/check-v1.json"));
-    let listed: Vec<String> =
-        s["$defs"]["rule"]["enum"].as_array().unwrap().iter().map(|x| x.as_str().unwrap().to_string()).collect();
+    let listed: Vec<String> = s["$defs"]["rule"]["enum"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|x| x.as_str().unwrap().to_string())
+        .collect();
     assert_eq!(listed, rule_ids());
 }
 
@@ -247,7 +334,9 @@ fn file_url(p: &Path) -> String {
         .to_string_lossy()
         .bytes()
         .map(|b| match b {
-            b'A'..=b'Z' | b'a'..=b'z' | b'0'..=b'9' | b'-' | b'.' | b'_' | b'~' | b'/' => (b as char).to_string(),
+            b'A'..=b'Z' | b'a'..=b'z' | b'0'..=b'9' | b'-' | b'.' | b'_' | b'~' | b'/' => {
+                (b as char).to_string()
+            }
             _ => format!("%{b:02X}"),
         })
         .collect();
@@ -272,7 +361,11 @@ fn sarif_of_every_fixture_validates_against_the_oasis_schema() {
         let (dir, what) = (&d.0, design_name(&d));
         let (sarif, code_s) = run_format_on(dir, &d.1, "sarif");
         let errs = errors(&schema, &sarif);
-        assert!(errs.is_empty(), "{what}: SARIF does not match the OASIS 2.1.0 schema:\n{}", errs.join("\n"));
+        assert!(
+            errs.is_empty(),
+            "{what}: SARIF does not match the OASIS 2.1.0 schema:\n{}",
+            errs.join("\n")
+        );
         let (json, code_j) = run_format_on(dir, &d.1, "json");
         assert_eq!(code_s, code_j, "{what}: same exit code in both formats");
         assert_eq!(sarif["version"], "2.1.0");
@@ -285,16 +378,32 @@ fn sarif_of_every_fixture_validates_against_the_oasis_schema() {
         let root = std::iter::successors(Some(dir.as_path()), |p| p.parent())
             .find(|p| p.join("seam.toml").is_file())
             .unwrap_or(dir);
-        assert_eq!(run["originalUriBaseIds"]["SRCROOT"]["uri"], file_uri_of(root), "{what}");
+        assert_eq!(
+            run["originalUriBaseIds"]["SRCROOT"]["uri"],
+            file_uri_of(root),
+            "{what}"
+        );
 
         // One rule descriptor per rule id, each with help and a help URI to its page.
         let rules = run["tool"]["driver"]["rules"].as_array().unwrap();
-        let ids: Vec<String> = rules.iter().map(|r| r["id"].as_str().unwrap().to_string()).collect();
+        let ids: Vec<String> = rules
+            .iter()
+            .map(|r| r["id"].as_str().unwrap().to_string())
+            .collect();
         assert_eq!(ids, rule_ids());
         for r in rules {
             let id = r["id"].as_str().unwrap();
-            assert!(!r["help"]["text"].as_str().unwrap_or("").is_empty(), "{id}: help text");
-            assert!(!r["shortDescription"]["text"].as_str().unwrap_or("").is_empty(), "{id}: short description");
+            assert!(
+                !r["help"]["text"].as_str().unwrap_or("").is_empty(),
+                "{id}: help text"
+            );
+            assert!(
+                !r["shortDescription"]["text"]
+                    .as_str()
+                    .unwrap_or("")
+                    .is_empty(),
+                "{id}: short description"
+            );
             let uri = r["helpUri"].as_str().unwrap();
             assert!(uri.ends_with(&format!("/{id}.md")), "{id}: helpUri {uri}");
             let default = RULES.iter().find(|(x, _)| *x == id).unwrap().1;
@@ -304,10 +413,16 @@ fn sarif_of_every_fixture_validates_against_the_oasis_schema() {
                 "off" => "none",
                 _ => "note",
             };
-            assert_eq!(r["defaultConfiguration"]["level"], level, "{id}: default level");
+            assert_eq!(
+                r["defaultConfiguration"]["level"], level,
+                "{id}: default level"
+            );
         }
         let help_of = |id: &str| {
-            rules.iter().find(|r| r["id"] == id).unwrap()["help"]["text"].as_str().unwrap().to_string()
+            rules.iter().find(|r| r["id"] == id).unwrap()["help"]["text"]
+                .as_str()
+                .unwrap()
+                .to_string()
         };
         // The cautions of the brief (DESIGN.md section 1) in the help of the CDC and MTBF rules.
         assert!(help_of("unsynchronized-crossing").contains("structural and advisory"));
@@ -331,20 +446,38 @@ fn sarif_of_every_fixture_validates_against_the_oasis_schema() {
             let loc = &r["locations"][0]["physicalLocation"];
             assert_eq!(loc["artifactLocation"]["uriBaseId"], "SRCROOT");
             let file = f["file"].as_str().unwrap();
-            assert_eq!(loc["artifactLocation"]["uri"].as_str().unwrap().replace("%20", " "), file);
+            assert_eq!(
+                loc["artifactLocation"]["uri"]
+                    .as_str()
+                    .unwrap()
+                    .replace("%20", " "),
+                file
+            );
             assert_eq!(loc["region"]["startLine"], f["line"]);
             assert_eq!(loc["region"]["startColumn"], f["column"]);
             assert_eq!(loc["region"]["endLine"], f["end_line"]);
             assert_eq!(loc["region"]["endColumn"], f["end_column"]);
             let rel = f["related"].as_array().unwrap();
-            let srel = r["relatedLocations"].as_array().map(|a| a.len()).unwrap_or(0);
+            let srel = r["relatedLocations"]
+                .as_array()
+                .map(|a| a.len())
+                .unwrap_or(0);
             assert_eq!(srel, rel.len(), "related locations of {f}");
-            for (sr, jr) in r["relatedLocations"].as_array().into_iter().flatten().zip(rel) {
+            for (sr, jr) in r["relatedLocations"]
+                .as_array()
+                .into_iter()
+                .flatten()
+                .zip(rel)
+            {
                 assert_eq!(sr["message"]["text"], jr["message"]);
                 assert_eq!(sr["physicalLocation"]["region"]["startLine"], jr["line"]);
             }
             let sup = r["suppressions"].as_array().unwrap();
-            assert_eq!(!sup.is_empty(), f["waived"] == true, "suppression iff waived: {f}");
+            assert_eq!(
+                !sup.is_empty(),
+                f["waived"] == true,
+                "suppression iff waived: {f}"
+            );
         }
         checked += 1;
     }
@@ -358,33 +491,68 @@ fn the_oasis_schema_rejects_broken_sarif() {
     let schema = sarif_schema();
     let (good, _) = run_format(&demo(), "sarif");
     assert!(errors(&schema, &good).is_empty());
-    assert!(!good["runs"][0]["results"].as_array().unwrap().is_empty(), "the demo has results to break");
+    assert!(
+        !good["runs"][0]["results"].as_array().unwrap().is_empty(),
+        "the demo has results to break"
+    );
     let mutants: Vec<(&str, Mutation)> = vec![
-        ("version 2.0.0", Box::new(|v: &mut Value| v["version"] = "2.0.0".into())),
-        ("columnKind bytes", Box::new(|v: &mut Value| v["runs"][0]["columnKind"] = "bytes".into())),
-        ("level fatal", Box::new(|v: &mut Value| v["runs"][0]["results"][0]["level"] = "fatal".into())),
-        ("startLine 0", Box::new(|v: &mut Value| {
-            v["runs"][0]["results"][0]["locations"][0]["physicalLocation"]["region"]["startLine"] = 0.into()
-        })),
-        ("relative helpUri", Box::new(|v: &mut Value| {
-            v["runs"][0]["tool"]["driver"]["rules"][0]["helpUri"] = "docs/rules/x.md".into()
-        })),
-        ("suppression kind", Box::new(|v: &mut Value| {
-            v["runs"][0]["results"][0]["suppressions"] = serde_json::json!([{"kind": "inComment"}])
-        })),
-        ("result without message", Box::new(|v: &mut Value| {
-            v["runs"][0]["results"][0].as_object_mut().unwrap().remove("message");
-        })),
+        (
+            "version 2.0.0",
+            Box::new(|v: &mut Value| v["version"] = "2.0.0".into()),
+        ),
+        (
+            "columnKind bytes",
+            Box::new(|v: &mut Value| v["runs"][0]["columnKind"] = "bytes".into()),
+        ),
+        (
+            "level fatal",
+            Box::new(|v: &mut Value| v["runs"][0]["results"][0]["level"] = "fatal".into()),
+        ),
+        (
+            "startLine 0",
+            Box::new(|v: &mut Value| {
+                v["runs"][0]["results"][0]["locations"][0]["physicalLocation"]["region"]
+                    ["startLine"] = 0.into()
+            }),
+        ),
+        (
+            "relative helpUri",
+            Box::new(|v: &mut Value| {
+                v["runs"][0]["tool"]["driver"]["rules"][0]["helpUri"] = "docs/rules/x.md".into()
+            }),
+        ),
+        (
+            "suppression kind",
+            Box::new(|v: &mut Value| {
+                v["runs"][0]["results"][0]["suppressions"] =
+                    serde_json::json!([{"kind": "inComment"}])
+            }),
+        ),
+        (
+            "result without message",
+            Box::new(|v: &mut Value| {
+                v["runs"][0]["results"][0]
+                    .as_object_mut()
+                    .unwrap()
+                    .remove("message");
+            }),
+        ),
     ];
     for (what, m) in mutants {
         let mut v = good.clone();
         m(&mut v);
-        assert!(!errors(&schema, &v).is_empty(), "the OASIS schema accepted SARIF with {what}");
+        assert!(
+            !errors(&schema, &v).is_empty(),
+            "the OASIS schema accepted SARIF with {what}"
+        );
     }
 }
 
 fn copy_dir(from: &Path, to: &Path) {
-    for e in walkdir::WalkDir::new(from).into_iter().filter_map(|e| e.ok()) {
+    for e in walkdir::WalkDir::new(from)
+        .into_iter()
+        .filter_map(|e| e.ok())
+    {
         let rel = e.path().strip_prefix(from).unwrap();
         let dst = to.join(rel);
         if e.file_type().is_dir() {
@@ -407,20 +575,36 @@ fn waivers_become_inline_and_external_suppressions() {
         .as_array()
         .unwrap()
         .iter()
-        .filter(|f| f["waived"] == false && f["signal"].is_string() && f["file"].as_str().unwrap().starts_with("rtl/"))
+        .filter(|f| {
+            f["waived"] == false
+                && f["signal"].is_string()
+                && f["file"].as_str().unwrap().starts_with("rtl/")
+        })
         .collect();
     // The demo carries deliberate CDC bugs (tests/demo/seam.toml): at least two on distinct lines.
     let a = cdc.first().expect("the demo reports CDC findings");
     let b = cdc
         .iter()
-        .find(|f| (f["file"].clone(), f["line"].clone()) != (a["file"].clone(), a["line"].clone())
-            && f["signal"].as_str().unwrap().chars().all(|c| c.is_ascii_alphanumeric() || c == '_' || c == '.'))
+        .find(|f| {
+            (f["file"].clone(), f["line"].clone()) != (a["file"].clone(), a["line"].clone())
+                && f["signal"]
+                    .as_str()
+                    .unwrap()
+                    .chars()
+                    .all(|c| c.is_ascii_alphanumeric() || c == '_' || c == '.')
+        })
         .expect("a second CDC finding on another line");
-    let (a_rule, a_file, a_line) = (a["rule"].as_str().unwrap(), a["file"].as_str().unwrap(), a["line"].as_u64().unwrap() as usize);
+    let (a_rule, a_file, a_line) = (
+        a["rule"].as_str().unwrap(),
+        a["file"].as_str().unwrap(),
+        a["line"].as_u64().unwrap() as usize,
+    );
     let path = d.path().join(a_file);
     let text = std::fs::read_to_string(&path).unwrap();
     let mut lines: Vec<String> = text.lines().map(str::to_string).collect();
-    lines[a_line - 1].push_str(&format!(" // seam: allow({a_rule}) tide strobe is held for a second"));
+    lines[a_line - 1].push_str(&format!(
+        " // seam: allow({a_rule}) tide strobe is held for a second"
+    ));
     std::fs::write(&path, lines.join("\n") + "\n").unwrap();
     let toml_path = d.path().join("seam.toml");
     let mut toml = std::fs::read_to_string(&toml_path).unwrap();
@@ -432,7 +616,17 @@ fn waivers_become_inline_and_external_suppressions() {
     std::fs::write(&toml_path, toml).unwrap();
 
     let report = d.path().join("report.html");
-    let out = seam(&["check", ".", "--format", "json", "--report", report.to_str().unwrap()], d.path());
+    let out = seam(
+        &[
+            "check",
+            ".",
+            "--format",
+            "json",
+            "--report",
+            report.to_str().unwrap(),
+        ],
+        d.path(),
+    );
     let json = stdout_json(&out, "waived demo json + report");
     let (sarif, _) = run_format(d.path(), "sarif");
     assert!(errors(&sarif_schema(), &sarif).is_empty());
@@ -442,37 +636,71 @@ fn waivers_become_inline_and_external_suppressions() {
     let find = |f0: &Value| -> (Value, Value) {
         let i = findings
             .iter()
-            .position(|f| f["rule"] == f0["rule"] && f["file"] == f0["file"] && f["line"] == f0["line"] && f["signal"] == f0["signal"])
+            .position(|f| {
+                f["rule"] == f0["rule"]
+                    && f["file"] == f0["file"]
+                    && f["line"] == f0["line"]
+                    && f["signal"] == f0["signal"]
+            })
             .unwrap_or_else(|| panic!("finding {f0} is still reported"));
         (findings[i].clone(), results[i].clone())
     };
     let (fa, ra) = find(a);
     assert_eq!(fa["waived"], true, "inline waiver applied: {fa}");
     assert_eq!(ra["suppressions"][0]["kind"], "inSource");
-    assert_eq!(ra["suppressions"][0]["justification"], "tide strobe is held for a second");
-    assert_eq!(ra["suppressions"][0]["location"]["physicalLocation"]["region"]["startLine"], a_line);
+    assert_eq!(
+        ra["suppressions"][0]["justification"],
+        "tide strobe is held for a second"
+    );
+    assert_eq!(
+        ra["suppressions"][0]["location"]["physicalLocation"]["region"]["startLine"],
+        a_line
+    );
     let (fb, rb) = find(b);
     assert_eq!(fb["waived"], true, "seam.toml waiver applied: {fb}");
     assert_eq!(rb["suppressions"][0]["kind"], "external");
-    assert_eq!(rb["suppressions"][0]["justification"], "radio link ignores this during calibration");
+    assert_eq!(
+        rb["suppressions"][0]["justification"],
+        "radio link ignores this during calibration"
+    );
 
     // The report's map has one edge per (source, destination, status) group of this run,
     // waived crossings included.
     let html = std::fs::read_to_string(&report).unwrap();
     let mut want: BTreeMap<(String, String, String), usize> = BTreeMap::new();
     for c in json["crossings"].as_array().unwrap() {
-        let key = (c["source_domain"].as_str().unwrap().to_string(), c["destination_domain"].as_str().unwrap().to_string(), c["status"].as_str().unwrap().to_string());
+        let key = (
+            c["source_domain"].as_str().unwrap().to_string(),
+            c["destination_domain"].as_str().unwrap().to_string(),
+            c["status"].as_str().unwrap().to_string(),
+        );
         *want.entry(key).or_default() += 1;
     }
     let got: BTreeMap<(String, String, String), usize> = start_tags(&html)
         .into_iter()
         .filter(|(n, a, _)| n == "g" && has_class(a, "crossing-edge"))
-        .map(|(_, a, _)| ((a["data-source"].clone(), a["data-destination"].clone(), a["data-status"].clone()), a["data-count"].parse().unwrap()))
+        .map(|(_, a, _)| {
+            (
+                (
+                    a["data-source"].clone(),
+                    a["data-destination"].clone(),
+                    a["data-status"].clone(),
+                ),
+                a["data-count"].parse().unwrap(),
+            )
+        })
         .collect();
     assert_eq!(got, want);
     let waived_findings = findings.iter().filter(|f| f["waived"] == true).count();
-    assert_eq!(html.matches(r#"class="finding sev-"#).count(), findings.len());
-    assert_eq!(html.matches(" waived\" data-rule=").count(), waived_findings, "waived findings marked in the report");
+    assert_eq!(
+        html.matches(r#"class="finding sev-"#).count(),
+        findings.len()
+    );
+    assert_eq!(
+        html.matches(" waived\" data-rule=").count(),
+        waived_findings,
+        "waived findings marked in the report"
+    );
 }
 
 // ---------------------------------------------------------------------------------------------
@@ -481,7 +709,12 @@ fn waivers_become_inline_and_external_suppressions() {
 
 fn chromium() -> PathBuf {
     for c in ["chromium", "chromium-browser"] {
-        if Command::new(c).arg("--version").output().map(|o| o.status.success()).unwrap_or(false) {
+        if Command::new(c)
+            .arg("--version")
+            .output()
+            .map(|o| o.status.success())
+            .unwrap_or(false)
+        {
             return PathBuf::from(c);
         }
     }
@@ -507,7 +740,11 @@ fn chromium_dom(file: &Path) -> String {
         .arg(file_url(file))
         .output()
         .expect("run chromium");
-    assert!(out.status.success(), "chromium failed: {}", String::from_utf8_lossy(&out.stderr));
+    assert!(
+        out.status.success(),
+        "chromium failed: {}",
+        String::from_utf8_lossy(&out.stderr)
+    );
     let dom = String::from_utf8_lossy(&out.stdout).to_string();
     assert!(dom.contains("</html>"), "chromium dumped no document");
     dom
@@ -557,7 +794,10 @@ fn start_tags(html: &str) -> Vec<(String, BTreeMap<String, String>, usize)> {
                 if j < b.len() && (b[j] == b'"' || b[j] == b'\'') {
                     let q = b[j];
                     let v0 = j + 1;
-                    let end = html[v0..].find(q as char).map(|e| v0 + e).unwrap_or(b.len());
+                    let end = html[v0..]
+                        .find(q as char)
+                        .map(|e| v0 + e)
+                        .unwrap_or(b.len());
                     val = decode(&html[v0..end]);
                     j = end + 1;
                 } else {
@@ -577,12 +817,17 @@ fn start_tags(html: &str) -> Vec<(String, BTreeMap<String, String>, usize)> {
 }
 
 fn has_class(attrs: &BTreeMap<String, String>, class: &str) -> bool {
-    attrs.get("class").is_some_and(|c| c.split_whitespace().any(|x| x == class))
+    attrs
+        .get("class")
+        .is_some_and(|c| c.split_whitespace().any(|x| x == class))
 }
 
 /// Text content between `from` and the next `close` tag after it, tags stripped.
 fn text_until(html: &str, from: usize, close: &str) -> String {
-    let end = html[from..].find(close).map(|e| from + e).unwrap_or(html.len());
+    let end = html[from..]
+        .find(close)
+        .map(|e| from + e)
+        .unwrap_or(html.len());
     let mut s = String::new();
     let mut in_tag = false;
     for c in html[from..end].chars() {
@@ -602,7 +847,17 @@ fn text_until(html: &str, from: usize, close: &str) -> String {
 fn html_report_of_the_demo_renders_one_node_per_domain_and_one_edge_per_group() {
     let d = tempfile::tempdir().unwrap();
     let report = d.path().join("tide gauge report.html");
-    let out = seam(&["check", ".", "--format", "json", "--report", report.to_str().unwrap()], &demo());
+    let out = seam(
+        &[
+            "check",
+            ".",
+            "--format",
+            "json",
+            "--report",
+            report.to_str().unwrap(),
+        ],
+        &demo(),
+    );
     let json = stdout_json(&out, "demo json + report");
     let raw = std::fs::read_to_string(&report).expect("report written");
 
@@ -621,34 +876,71 @@ fn html_report_of_the_demo_renders_one_node_per_domain_and_one_edge_per_group() 
     }
     let mut want_edges: BTreeMap<(String, String, String), usize> = BTreeMap::new();
     for c in json["crossings"].as_array().unwrap() {
-        let (s, t) = (c["source_domain"].as_str().unwrap(), c["destination_domain"].as_str().unwrap());
+        let (s, t) = (
+            c["source_domain"].as_str().unwrap(),
+            c["destination_domain"].as_str().unwrap(),
+        );
         want_domains.insert(s.to_string());
         want_domains.insert(t.to_string());
-        *want_edges.entry((s.to_string(), t.to_string(), c["status"].as_str().unwrap().to_string())).or_default() += 1;
+        *want_edges
+            .entry((
+                s.to_string(),
+                t.to_string(),
+                c["status"].as_str().unwrap().to_string(),
+            ))
+            .or_default() += 1;
     }
 
-    let svg_count = tags.iter().filter(|(n, a, _)| n == "svg" && has_class(a, "crossing-map")).count();
-    assert_eq!(svg_count, usize::from(!want_domains.is_empty()), "one inline SVG map");
+    let svg_count = tags
+        .iter()
+        .filter(|(n, a, _)| n == "svg" && has_class(a, "crossing-map"))
+        .count();
+    assert_eq!(
+        svg_count,
+        usize::from(!want_domains.is_empty()),
+        "one inline SVG map"
+    );
     let nodes: Vec<String> = tags
         .iter()
         .filter(|(n, a, _)| n == "g" && has_class(a, "domain-node"))
         .map(|(_, a, _)| a.get("data-domain").cloned().unwrap_or_default())
         .collect();
-    assert_eq!(nodes.len(), want_domains.len(), "one node per domain: {nodes:?} vs {want_domains:?}");
+    assert_eq!(
+        nodes.len(),
+        want_domains.len(),
+        "one node per domain: {nodes:?} vs {want_domains:?}"
+    );
     assert_eq!(nodes.iter().cloned().collect::<BTreeSet<_>>(), want_domains);
 
     let mut edges: BTreeMap<(String, String, String), usize> = BTreeMap::new();
-    for (n, a, _) in tags.iter().filter(|(n, a, _)| n == "g" && has_class(a, "crossing-edge")) {
+    for (n, a, _) in tags
+        .iter()
+        .filter(|(n, a, _)| n == "g" && has_class(a, "crossing-edge"))
+    {
         assert_eq!(n, "g");
-        let key = (a["data-source"].clone(), a["data-destination"].clone(), a["data-status"].clone());
+        let key = (
+            a["data-source"].clone(),
+            a["data-destination"].clone(),
+            a["data-status"].clone(),
+        );
         let count: usize = a["data-count"].parse().unwrap();
-        assert!(edges.insert(key.clone(), count).is_none(), "two edges for one group {key:?}");
+        assert!(
+            edges.insert(key.clone(), count).is_none(),
+            "two edges for one group {key:?}"
+        );
     }
-    assert_eq!(edges, want_edges, "one edge per (source, destination, status) group with its count");
+    assert_eq!(
+        edges, want_edges,
+        "one edge per (source, destination, status) group with its count"
+    );
 
     // Legend: the three statuses.
     for st in ["synchronized", "unsafe", "waived"] {
-        assert!(tags.iter().any(|(_, a, _)| has_class(a, &format!("legend-{st}"))), "legend entry {st}");
+        assert!(
+            tags.iter()
+                .any(|(_, a, _)| has_class(a, &format!("legend-{st}"))),
+            "legend entry {st}"
+        );
     }
     // Table of crossings: one row per crossing, in order, with its status.
     let rows: Vec<String> = tags
@@ -656,30 +948,50 @@ fn html_report_of_the_demo_renders_one_node_per_domain_and_one_edge_per_group() 
         .filter(|(n, a, _)| n == "tr" && has_class(a, "crossing-row"))
         .map(|(_, a, _)| a["data-status"].clone())
         .collect();
-    let want_rows: Vec<String> =
-        json["crossings"].as_array().unwrap().iter().map(|c| c["status"].as_str().unwrap().to_string()).collect();
+    let want_rows: Vec<String> = json["crossings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|c| c["status"].as_str().unwrap().to_string())
+        .collect();
     assert_eq!(rows, want_rows);
 
     // Findings: one article each, in order; each excerpt holds the finding's source line,
     // read here from the file itself (escaping must keep `<=` and friends as text).
-    let articles: Vec<&(String, BTreeMap<String, String>, usize)> =
-        tags.iter().filter(|(n, a, _)| n == "article" && has_class(a, "finding")).collect();
+    let articles: Vec<&(String, BTreeMap<String, String>, usize)> = tags
+        .iter()
+        .filter(|(n, a, _)| n == "article" && has_class(a, "finding"))
+        .collect();
     let findings = json["findings"].as_array().unwrap();
     assert_eq!(articles.len(), findings.len());
     for ((_, a, at), f) in articles.iter().zip(findings) {
         assert_eq!(a["data-rule"], f["rule"].as_str().unwrap());
         let file = demo().join(f["file"].as_str().unwrap());
-        let Ok(src) = std::fs::read_to_string(&file) else { continue };
-        let line = src.lines().nth(f["line"].as_u64().unwrap() as usize - 1).unwrap_or("");
+        let Ok(src) = std::fs::read_to_string(&file) else {
+            continue;
+        };
+        let line = src
+            .lines()
+            .nth(f["line"].as_u64().unwrap() as usize - 1)
+            .unwrap_or("");
         let art = text_until(&dom, *at, "</article>");
-        assert!(art.contains(line.trim_end()), "excerpt of {f} lacks its source line {line:?}:\n{art}");
-        assert!(art.contains(f["message"].as_str().unwrap()), "message of {f}");
+        assert!(
+            art.contains(line.trim_end()),
+            "excerpt of {f} lacks its source line {line:?}:\n{art}"
+        );
+        assert!(
+            art.contains(f["message"].as_str().unwrap()),
+            "message of {f}"
+        );
     }
     // Footer cautions (DESIGN.md section 1).
     let footer_at = dom.find("<footer").expect("footer");
     let footer = text_until(&dom, footer_at, "</footer>");
     assert!(footer.contains("structural and advisory"), "{footer}");
-    assert!(footer.contains("estimates from the published formula"), "{footer}");
+    assert!(
+        footer.contains("estimates from the published formula"),
+        "{footer}"
+    );
 }
 
 // ---------------------------------------------------------------------------------------------
@@ -696,9 +1008,16 @@ fn explain_prints_each_rule_page_and_rejects_unknown_ids() {
         assert_eq!(out.status.code(), Some(0), "explain {id}");
         let text = String::from_utf8_lossy(&out.stdout).to_string();
         match std::fs::read_to_string(root.join("docs/rules").join(format!("{id}.md"))) {
-            Ok(page) => assert_eq!(text.trim_end(), page.trim_end(), "explain {id} prints its page"),
+            Ok(page) => assert_eq!(
+                text.trim_end(),
+                page.trim_end(),
+                "explain {id} prints its page"
+            ),
             Err(_) => {
-                assert!(text.starts_with(&format!("{id}: ")) && text.contains("not written yet"), "{text}");
+                assert!(
+                    text.starts_with(&format!("{id}: ")) && text.contains("not written yet"),
+                    "{text}"
+                );
             }
         }
     }
@@ -724,10 +1043,21 @@ fn explain_prints_each_rule_page_and_rejects_unknown_ids() {
 
 fn assert_one_line_exit_2(out: &Output, what: &str, must_contain: &[&str]) {
     let err = String::from_utf8_lossy(&out.stderr);
-    assert_eq!(out.status.code(), Some(2), "{what}: exit code; stderr {err}");
-    assert_eq!(err.lines().count(), 1, "{what}: one line on stderr, got:\n{err}");
+    assert_eq!(
+        out.status.code(),
+        Some(2),
+        "{what}: exit code; stderr {err}"
+    );
+    assert_eq!(
+        err.lines().count(),
+        1,
+        "{what}: one line on stderr, got:\n{err}"
+    );
     assert!(err.starts_with("seam: error: "), "{what}: {err}");
-    assert!(!err.contains("panicked") && !err.contains("RUST_BACKTRACE"), "{what}: {err}");
+    assert!(
+        !err.contains("panicked") && !err.contains("RUST_BACKTRACE"),
+        "{what}: {err}"
+    );
     assert!(out.stdout.is_empty(), "{what}: nothing on stdout");
     for m in must_contain {
         assert!(err.contains(m), "{what}: stderr names {m:?}: {err}");
@@ -739,7 +1069,11 @@ fn assert_one_line_exit_2(out: &Output, what: &str, must_contain: &[&str]) {
 fn bad_arguments_missing_paths_and_broken_config_exit_2_with_one_line() {
     let d = tempfile::tempdir().unwrap();
     let dp = d.path();
-    std::fs::write(dp.join("a.v"), "module a(input clk, input d, output reg q);\n  always @(posedge clk) q <= d;\nendmodule\n").unwrap();
+    std::fs::write(
+        dp.join("a.v"),
+        "module a(input clk, input d, output reg q);\n  always @(posedge clk) q <= d;\nendmodule\n",
+    )
+    .unwrap();
     let cases: Vec<(&[&str], &[&str])> = vec![
         (&["check", "--format", "xml"], &["xml"]),
         (&["check", "--no-such-flag"], &["--no-such-flag"]),
@@ -748,8 +1082,14 @@ fn bad_arguments_missing_paths_and_broken_config_exit_2_with_one_line() {
         (&["frobnicate"], &["frobnicate"]),
         (&[], &["subcommand"]),
         (&["check", "no/such/dir"], &["no/such/dir"]),
-        (&["check", ".", "--config", "missing.toml"], &["missing.toml"]),
-        (&["check", ".", "--report", "no/such/dir/r.html"], &["no/such/dir/r.html"]),
+        (
+            &["check", ".", "--config", "missing.toml"],
+            &["missing.toml"],
+        ),
+        (
+            &["check", ".", "--report", "no/such/dir/r.html"],
+            &["no/such/dir/r.html"],
+        ),
         (&["explain", "a", "b"], &["b"]),
     ];
     for (args, names) in cases {
@@ -757,10 +1097,18 @@ fn bad_arguments_missing_paths_and_broken_config_exit_2_with_one_line() {
         assert_one_line_exit_2(&out, &format!("seam {}", args.join(" ")), names);
     }
     // A value error in seam.toml: file, line and key (config.rs error format).
-    std::fs::write(dp.join("seam.toml"), "[design]\nfiles = [\"*.v\"]\n\n[clocks]\nclk = { frequency = \"fast\" }\n").unwrap();
+    std::fs::write(
+        dp.join("seam.toml"),
+        "[design]\nfiles = [\"*.v\"]\n\n[clocks]\nclk = { frequency = \"fast\" }\n",
+    )
+    .unwrap();
     for fmt in ["human", "json", "sarif"] {
         let out = seam(&["check", "--format", fmt], dp);
-        assert_one_line_exit_2(&out, &format!("broken seam.toml, {fmt}"), &["seam.toml:5", "clocks.clk.frequency"]);
+        assert_one_line_exit_2(
+            &out,
+            &format!("broken seam.toml, {fmt}"),
+            &["seam.toml:5", "clocks.clk.frequency"],
+        );
     }
     // A TOML syntax error: file and line.
     std::fs::write(dp.join("seam.toml"), "[design\nfiles = 3\n").unwrap();
@@ -769,6 +1117,13 @@ fn bad_arguments_missing_paths_and_broken_config_exit_2_with_one_line() {
     // An unknown rule in [rules].
     std::fs::write(dp.join("seam.toml"), "[rules]\nno-such-rule = \"error\"\n").unwrap();
     let out = seam(&["check", "--report", "r.html"], dp);
-    assert_one_line_exit_2(&out, "unknown rule in seam.toml", &["seam.toml:2", "no-such-rule"]);
-    assert!(!dp.join("r.html").exists(), "no report for a run that never started");
+    assert_one_line_exit_2(
+        &out,
+        "unknown rule in seam.toml",
+        &["seam.toml:2", "no-such-rule"],
+    );
+    assert!(
+        !dp.join("r.html").exists(),
+        "no report for a run that never started"
+    );
 }

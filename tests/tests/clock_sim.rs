@@ -14,20 +14,36 @@ use seam_tests::*;
 fn registers_change_only_with_their_clock() {
     let dir = fixtures().join("clocks");
     let out = seam(&["domains", "--format", "json"], &dir);
-    assert!(out.status.success(), "{}", String::from_utf8_lossy(&out.stderr));
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
     let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
     let mut by_clock: BTreeMap<String, BTreeSet<String>> = BTreeMap::new();
     let mut regs = Vec::new();
     for r in v["registers"].as_array().unwrap() {
         let inst = r["instance"].as_str().unwrap();
-        let path = format!("{}.{}", inst.strip_prefix("ck_top").unwrap_or(inst).trim_start_matches('.'), r["signal"].as_str().unwrap());
+        let path = format!(
+            "{}.{}",
+            inst.strip_prefix("ck_top")
+                .unwrap_or(inst)
+                .trim_start_matches('.'),
+            r["signal"].as_str().unwrap()
+        );
         let path = path.trim_start_matches('.').to_string();
-        by_clock.entry(r["clock"].as_str().unwrap().to_string()).or_default().insert(path.clone());
+        by_clock
+            .entry(r["clock"].as_str().unwrap().to_string())
+            .or_default()
+            .insert(path.clone());
         regs.push(path);
     }
     // per-instance domains: the same block under two clocks
     assert!(by_clock["clk_a"].contains("u_cnt_a.cnt") && by_clock["clk_c"].contains("u_cnt_c.cnt"));
-    assert!(by_clock["clk_b"].contains("slow"), "the divided clock's register is in the parent's domain");
+    assert!(
+        by_clock["clk_b"].contains("slow"),
+        "the divided clock's register is in the parent's domain"
+    );
 
     // the testbench: two rounds; in each, toggle one clock 6 times, snapshot before and after
     let clocks = ["clk_a", "clk_b", "clk_c"];
@@ -60,7 +76,11 @@ fn registers_change_only_with_their_clock() {
         .args(["-g2012", "-o"])
         .arg(&sim)
         .arg(&tbf)
-        .args(["ck_top.v", "ck_cnt.v", "ck_cells.v"].iter().map(|f| dir.join(f)))
+        .args(
+            ["ck_top.v", "ck_cnt.v", "ck_cells.v"]
+                .iter()
+                .map(|f| dir.join(f)),
+        )
         .output()
         .expect("iverilog");
     assert!(c.status.success(), "{}", String::from_utf8_lossy(&c.stderr));
@@ -70,7 +90,10 @@ fn registers_change_only_with_their_clock() {
     for l in text.lines() {
         let p: Vec<&str> = l.split_whitespace().collect();
         if p.len() == 3 {
-            snaps.entry(p[0].to_string()).or_default().insert(p[1].to_string(), p[2].to_string());
+            snaps
+                .entry(p[0].to_string())
+                .or_default()
+                .insert(p[1].to_string(), p[2].to_string());
         }
     }
     for c in clocks {
@@ -79,8 +102,15 @@ fn registers_change_only_with_their_clock() {
         for i in 0..6 {
             seq.push(&snaps[&format!("S1{c}{i}")]);
         }
-        let changed: BTreeSet<String> =
-            regs.iter().filter(|r| seq.windows(2).any(|w| w[0][*r] != w[1][*r])).cloned().collect();
-        assert_eq!(changed, by_clock[c], "toggling {c} changed {changed:?}; seam assigns {:?}", by_clock[c]);
+        let changed: BTreeSet<String> = regs
+            .iter()
+            .filter(|r| seq.windows(2).any(|w| w[0][*r] != w[1][*r]))
+            .cloned()
+            .collect();
+        assert_eq!(
+            changed, by_clock[c],
+            "toggling {c} changed {changed:?}; seam assigns {:?}",
+            by_clock[c]
+        );
     }
 }

@@ -37,10 +37,18 @@ fn initialize_negotiates_the_position_encoding() {
     let c = LspClient::start(d.path(), caps, json!({}));
     assert_eq!(c.init_result["capabilities"]["positionEncoding"], "utf-8");
     let caps = &c.init_result["capabilities"];
-    assert_eq!(caps["textDocumentSync"]["change"], 2, "incremental sync (TextDocumentSyncKind.Incremental = 2)");
+    assert_eq!(
+        caps["textDocumentSync"]["change"], 2,
+        "incremental sync (TextDocumentSyncKind.Incremental = 2)"
+    );
     assert_eq!(caps["textDocumentSync"]["openClose"], true);
-    for k in ["hoverProvider", "inlayHintProvider", "codeLensProvider", "codeActionProvider", "executeCommandProvider"]
-    {
+    for k in [
+        "hoverProvider",
+        "inlayHintProvider",
+        "codeLensProvider",
+        "codeActionProvider",
+        "executeCommandProvider",
+    ] {
         assert!(!caps[k].is_null(), "{k} advertised");
     }
     assert_eq!(caps["workspace"]["workspaceFolders"]["supported"], true);
@@ -71,8 +79,10 @@ fn columns_follow_the_negotiated_encoding() {
         let uri = c.open(&d.path().join("tg_float.v"), 1);
         c.wait_analyzed(&uri, 1);
         let diags = c.diags(&uri);
-        let e =
-            diags.iter().find(|x| x["code"] == "syntax-error").unwrap_or_else(|| panic!("no syntax error: {diags:?}"));
+        let e = diags
+            .iter()
+            .find(|x| x["code"] == "syntax-error")
+            .unwrap_or_else(|| panic!("no syntax error: {diags:?}"));
         assert_eq!(e["range"]["start"]["line"], 1, "{e}");
         let ch = e["range"]["start"]["character"].as_u64().unwrap() as usize;
         // back to a byte offset by the encoding's own rule (LSP 3.17 "Position")
@@ -80,11 +90,17 @@ fn columns_follow_the_negotiated_encoding() {
             "utf-8" => ch,
             _ => Utf16Doc::new(line1).offset(0, ch),
         };
-        assert!(b > comment_end, "{enc}: error at byte {b}, after the comment");
+        assert!(
+            b > comment_end,
+            "{enc}: error at byte {b}, after the comment"
+        );
         byte_at.push((b, ch));
         assert_eq!(c.shutdown_and_exit().code(), Some(0));
     }
-    assert_eq!(byte_at[0].0, byte_at[1].0, "both encodings name the same place");
+    assert_eq!(
+        byte_at[0].0, byte_at[1].0,
+        "both encodings name the same place"
+    );
     // é is 2 bytes / 1 unit, 😀 is 4 bytes / 2 units: the counts differ by 3
     assert_eq!(byte_at[0].1, byte_at[1].1 + 3);
 }
@@ -96,9 +112,16 @@ fn syntax_errors_match_the_checker_and_clear() {
     let file = d.path().join("rtl").join("tg_tide.v");
     write(&file, &broken);
     let (want, _) = checker_keys(d.path());
-    assert!(want.iter().any(|k| k.1 == "syntax-error"), "the checker reports the syntax error: {want:?}");
+    assert!(
+        want.iter().any(|k| k.1 == "syntax-error"),
+        "the checker reports the syntax error: {want:?}"
+    );
 
-    let mut c = LspClient::start(d.path(), LspClient::default_capabilities(), json!({ "testMode": true }));
+    let mut c = LspClient::start(
+        d.path(),
+        LspClient::default_capabilities(),
+        json!({ "testMode": true }),
+    );
     let uri = c.open(&file, 1);
     c.wait_analyzed(&uri, 1);
     assert_eq!(server_keys(&c, d.path()), want);
@@ -113,11 +136,24 @@ fn syntax_errors_match_the_checker_and_clear() {
         .notifications
         .iter()
         .filter(|n| n["method"] == "$/progress" && n["params"]["token"] == token)
-        .map(|n| n["params"]["value"]["kind"].as_str().unwrap_or("").to_string())
+        .map(|n| {
+            n["params"]["value"]["kind"]
+                .as_str()
+                .unwrap_or("")
+                .to_string()
+        })
         .collect();
-    assert_eq!(kinds.first().map(String::as_str), Some("begin"), "{kinds:?}");
+    assert_eq!(
+        kinds.first().map(String::as_str),
+        Some("begin"),
+        "{kinds:?}"
+    );
     assert_eq!(kinds.last().map(String::as_str), Some("end"), "{kinds:?}");
-    let e = c.diags(&uri).into_iter().find(|x| x["code"] == "syntax-error").unwrap();
+    let e = c
+        .diags(&uri)
+        .into_iter()
+        .find(|x| x["code"] == "syntax-error")
+        .unwrap();
     // LSP 3.17 "Diagnostic": severity 1 = Error; codeDescription.href a URI
     assert_eq!(e["severity"], 1);
     assert_eq!(e["source"], "seam");
@@ -137,13 +173,21 @@ fn syntax_errors_match_the_checker_and_clear() {
     assert_eq!(server_keys(&c, d.path()), want, "after the fix");
     assert!(!c.diags(&uri).iter().any(|x| x["code"] == "syntax-error"));
     assert_eq!(c.diagnostics[&uri]["version"], 2);
-    let n_publishes = c.publishes.iter().filter(|p| p["uri"] == uri.as_str()).count();
+    let n_publishes = c
+        .publishes
+        .iter()
+        .filter(|p| p["uri"] == uri.as_str())
+        .count();
 
     // an edit that leaves the diagnostics as they are publishes nothing new
     let edit = doc.edit(0, 2, 0, 2, " ");
     c.change(&uri, 3, json!([edit]));
     c.wait_analyzed(&uri, 3);
-    let n_after = c.publishes.iter().filter(|p| p["uri"] == uri.as_str()).count();
+    let n_after = c
+        .publishes
+        .iter()
+        .filter(|p| p["uri"] == uri.as_str())
+        .count();
     assert_eq!(n_after, n_publishes, "only changed sets are published");
 
     // the text the server holds is the client's (test-only request)
@@ -161,20 +205,32 @@ fn watched_files_and_the_project_file() {
     let a = root.join("rtl").join("tg_tide.v");
     write(&a, TIDE_OK);
     let b = root.join("rtl").join("tg_wave.v");
-    let wave = TIDE_OK.replace("tg_tide", "tg_wave").replace("Tide gauge: level", "Wave height");
+    let wave = TIDE_OK
+        .replace("tg_tide", "tg_wave")
+        .replace("Tide gauge: level", "Wave height");
     write(&b, &wave);
-    let mut c = LspClient::start(root, LspClient::default_capabilities(), json!({ "testMode": true }));
+    let mut c = LspClient::start(
+        root,
+        LspClient::default_capabilities(),
+        json!({ "testMode": true }),
+    );
     let uri_a = c.open(&a, 1);
     c.wait_analyzed(&uri_a, 1);
     let (want, _) = checker_keys(root);
     assert_eq!(server_keys(&c, root), want);
     // LSP 3.17 "didChangeWatchedFiles": the server registered its watchers
-    assert!(c.server_requests.iter().any(|r| r["method"] == "client/registerCapability"
-        && r["params"]["registrations"][0]["method"] == "workspace/didChangeWatchedFiles"));
+    assert!(c
+        .server_requests
+        .iter()
+        .any(|r| r["method"] == "client/registerCapability"
+            && r["params"]["registrations"][0]["method"] == "workspace/didChangeWatchedFiles"));
 
     let watched = |c: &mut LspClient, p: &Path, typ: u32| {
         // FileChangeType: 1 created, 2 changed, 3 deleted
-        c.notify("workspace/didChangeWatchedFiles", json!({ "changes": [{ "uri": file_uri(p), "type": typ }] }));
+        c.notify(
+            "workspace/didChangeWatchedFiles",
+            json!({ "changes": [{ "uri": file_uri(p), "type": typ }] }),
+        );
     };
     let uri_b = file_uri(&b);
 
@@ -182,9 +238,15 @@ fn watched_files_and_the_project_file() {
     write(&b, &wave.replace("level_q <= level;", "level_q <= level"));
     watched(&mut c, &b, 2);
     let (want, _) = checker_keys(root);
-    assert!(want.iter().any(|k| k.0 == "rtl/tg_wave.v" && k.1 == "syntax-error"));
+    assert!(want
+        .iter()
+        .any(|k| k.0 == "rtl/tg_wave.v" && k.1 == "syntax-error"));
     let ok = c.wait_until(|c| server_keys(c, root) == want);
-    assert!(ok, "after the disk change: server {:?} checker {want:?}", server_keys(&c, root));
+    assert!(
+        ok,
+        "after the disk change: server {:?} checker {want:?}",
+        server_keys(&c, root)
+    );
 
     // a new file
     let n = root.join("rtl").join("tg_surge.v");
@@ -193,14 +255,22 @@ fn watched_files_and_the_project_file() {
     let (want, _) = checker_keys(root);
     assert!(want.iter().any(|k| k.0 == "rtl/tg_surge.v"));
     let ok = c.wait_until(|c| server_keys(c, root) == want);
-    assert!(ok, "after the new file: server {:?} checker {want:?}", server_keys(&c, root));
+    assert!(
+        ok,
+        "after the new file: server {:?} checker {want:?}",
+        server_keys(&c, root)
+    );
 
     // it goes again: its set is cleared
     std::fs::remove_file(&n).unwrap();
     watched(&mut c, &n, 3);
     let (want, _) = checker_keys(root);
     let ok = c.wait_until(|c| server_keys(c, root) == want);
-    assert!(ok, "after the delete: server {:?} checker {want:?}", server_keys(&c, root));
+    assert!(
+        ok,
+        "after the delete: server {:?} checker {want:?}",
+        server_keys(&c, root)
+    );
     // LSP 3.17 "publishDiagnostics": an empty array clears the file's diagnostics
     let uri_n = file_uri(&n);
     assert_eq!(
@@ -211,24 +281,38 @@ fn watched_files_and_the_project_file() {
 
     // a bad seam.toml: shown on seam.toml at the line the config parser names
     let bad_toml = "[design]\nfiles = [\"rtl/*.v\"]\nmax_file_bytes = \"lots\"\n";
-    let err = seam_analysis::config::parse_config("seam.toml", bad_toml).expect_err("the config parser rejects it");
+    let err = seam_analysis::config::parse_config("seam.toml", bad_toml)
+        .expect_err("the config parser rejects it");
     write(&root.join("seam.toml"), bad_toml);
     watched(&mut c, &root.join("seam.toml"), 2);
     let uri_toml = file_uri(&root.join("seam.toml"));
     let line0 = err.line as u64 - 1;
     let ok = c.wait_until(|c| {
-        c.diags(&uri_toml).iter().any(|x| x["code"] == "invalid-config" && x["range"]["start"]["line"] == line0)
+        c.diags(&uri_toml)
+            .iter()
+            .any(|x| x["code"] == "invalid-config" && x["range"]["start"]["line"] == line0)
     });
-    assert!(ok, "config error on seam.toml line {}: {:?}", err.line, c.diags(&uri_toml));
+    assert!(
+        ok,
+        "config error on seam.toml line {}: {:?}",
+        err.line,
+        c.diags(&uri_toml)
+    );
     // the last good configuration stays in force: the design is still analysed
     write(&b, &wave);
     watched(&mut c, &b, 2);
     let fixed = |c: &LspClient| {
         let d = c.diags(&uri_b);
-        !d.is_empty() && d.iter().all(|x| x["code"] != "syntax-error" && x["data"]["stale"] == false)
+        !d.is_empty()
+            && d.iter()
+                .all(|x| x["code"] != "syntax-error" && x["data"]["stale"] == false)
     };
     let ok = c.wait_until(fixed);
-    assert!(ok, "tg_wave.v fixed on disk while seam.toml is bad: {:?}", c.diags(&uri_b));
+    assert!(
+        ok,
+        "tg_wave.v fixed on disk while seam.toml is bad: {:?}",
+        c.diags(&uri_b)
+    );
     // fixed again: the error goes
     write(&root.join("seam.toml"), good_toml);
     watched(&mut c, &root.join("seam.toml"), 2);
@@ -236,23 +320,38 @@ fn watched_files_and_the_project_file() {
     assert!(ok, "config error cleared: {:?}", c.diags(&uri_toml));
     let (want, _) = checker_keys(root);
     let ok = c.wait_until(|c| server_keys(c, root) == want);
-    assert!(ok, "after the config fix: server {:?} checker {want:?}", server_keys(&c, root));
+    assert!(
+        ok,
+        "after the config fix: server {:?} checker {want:?}",
+        server_keys(&c, root)
+    );
     assert_eq!(c.shutdown_and_exit().code(), Some(0));
 }
 
 #[test]
 fn a_buffer_that_does_not_parse_keeps_its_last_good_model() {
     let d = tempfile::tempdir().unwrap();
-    copy_tree(&seam_tests::repo_root().join("tests").join("demo"), d.path());
+    copy_tree(
+        &seam_tests::repo_root().join("tests").join("demo"),
+        d.path(),
+    );
     let root = d.path();
     let file = root.join("rtl").join("tg_logger.v");
     let text = std::fs::read_to_string(&file).unwrap();
-    let mut c = LspClient::start(root, LspClient::default_capabilities(), json!({ "testMode": true }));
+    let mut c = LspClient::start(
+        root,
+        LspClient::default_capabilities(),
+        json!({ "testMode": true }),
+    );
     let uri = c.open(&file, 1);
     c.wait_analyzed(&uri, 1);
     let all = json!({ "textDocument": { "uri": uri }, "range": range(0, 0, 1000, 0) });
     let hints0 = c.call("textDocument/inlayHint", all.clone());
-    let d0: Vec<Value> = c.diags(&uri).into_iter().filter(|x| x["code"] != "syntax-error").collect();
+    let d0: Vec<Value> = c
+        .diags(&uri)
+        .into_iter()
+        .filter(|x| x["code"] != "syntax-error")
+        .collect();
     assert!(hints0.as_array().is_some_and(|a| !a.is_empty()));
 
     // one change event with two edits: a line above everything, then a stray `endmodule`
@@ -264,20 +363,30 @@ fn a_buffer_that_does_not_parse_keeps_its_last_good_model() {
     c.change(&uri, 2, json!([e1, e2]));
     c.wait_analyzed(&uri, 2);
     let diags = c.diags(&uri);
-    assert!(diags.iter().any(|x| x["code"] == "syntax-error"), "{diags:?}");
+    assert!(
+        diags.iter().any(|x| x["code"] == "syntax-error"),
+        "{diags:?}"
+    );
     // the earlier findings stay, one line lower, marked stale
     for f in &d0 {
         let moved = diags.iter().find(|x| {
             x["code"] == f["code"]
-                && x["range"]["start"]["line"].as_u64() == f["range"]["start"]["line"].as_u64().map(|l| l + 1)
+                && x["range"]["start"]["line"].as_u64()
+                    == f["range"]["start"]["line"].as_u64().map(|l| l + 1)
                 && x["range"]["start"]["character"] == f["range"]["start"]["character"]
         });
-        let moved = moved.unwrap_or_else(|| panic!("{} not kept one line lower: {diags:?}", f["code"]));
+        let moved =
+            moved.unwrap_or_else(|| panic!("{} not kept one line lower: {diags:?}", f["code"]));
         assert_eq!(moved["data"]["stale"], true);
-        assert!(moved["message"].as_str().unwrap().contains("last version of this file that parsed"));
+        assert!(moved["message"]
+            .as_str()
+            .unwrap()
+            .contains("last version of this file that parsed"));
     }
     if d0.is_empty() {
-        eprintln!("note: the design layer reports nothing in tg_logger.v; stale-finding check skipped");
+        eprintln!(
+            "note: the design layer reports nothing in tg_logger.v; stale-finding check skipped"
+        );
     }
     // the inlay hints come from the kept model, mapped through the edits
     let hints1 = c.call("textDocument/inlayHint", all.clone());
@@ -294,7 +403,10 @@ fn a_buffer_that_does_not_parse_keeps_its_last_good_model() {
     let e3 = doc.edit(last, len - " endmodule".len(), last, len, "");
     c.change(&uri, 3, json!([e3]));
     let other = tempfile::tempdir().unwrap();
-    copy_tree(&seam_tests::repo_root().join("tests").join("demo"), other.path());
+    copy_tree(
+        &seam_tests::repo_root().join("tests").join("demo"),
+        other.path(),
+    );
     std::fs::write(other.path().join("rtl").join("tg_logger.v"), &doc.text).unwrap();
     let (want, _) = checker_keys(other.path());
     c.wait_analyzed(&uri, 3);
@@ -307,7 +419,11 @@ fn a_buffer_that_does_not_parse_keeps_its_last_good_model() {
 fn hostile_buffers_and_requests_do_not_crash_the_server() {
     let d = tempfile::tempdir().unwrap();
     write(&d.path().join("tg_tide.v"), TIDE_OK);
-    let mut c = LspClient::start(d.path(), LspClient::default_capabilities(), json!({ "testMode": true }));
+    let mut c = LspClient::start(
+        d.path(),
+        LspClient::default_capabilities(),
+        json!({ "testMode": true }),
+    );
     // 5,000 nested parentheses (the parser's nesting guard), and binary-looking text
     let deep = format!(
         "module tg_deep(output wire y);\n  assign y = {}1'b1{};\nendmodule\n",
@@ -328,28 +444,50 @@ fn hostile_buffers_and_requests_do_not_crash_the_server() {
     let noise_uri = file_uri(&d.path().join("tg_noise.sv"));
     c.open_text(&noise_uri, &noise, 1);
     // positions far outside the text (LSP 3.17 "Position": clamped to the line / the text)
-    c.change(&noise_uri, 2, json!([{ "range": range(1_000_000, 5, 2_000_000, 9), "text": "module m; endmodule\n" }]));
-    c.change(&noise_uri, 3, json!([{ "range": range(0, 1_000_000, 0, 2_000_000), "text": "x" }]));
+    c.change(
+        &noise_uri,
+        2,
+        json!([{ "range": range(1_000_000, 5, 2_000_000, 9), "text": "module m; endmodule\n" }]),
+    );
+    c.change(
+        &noise_uri,
+        3,
+        json!([{ "range": range(0, 1_000_000, 0, 2_000_000), "text": "x" }]),
+    );
     // notifications about documents that are not open
     let ghost = file_uri(&d.path().join("nowhere.v"));
     c.change(&ghost, 7, json!([{ "text": "module g; endmodule" }]));
-    c.notify("textDocument/didClose", json!({ "textDocument": { "uri": ghost } }));
-    for (uri, line, ch) in [(&deep_uri, 1u64, 20_000u64), (&noise_uri, 999_999, 0), (&ghost, 0, 0)] {
+    c.notify(
+        "textDocument/didClose",
+        json!({ "textDocument": { "uri": ghost } }),
+    );
+    for (uri, line, ch) in [
+        (&deep_uri, 1u64, 20_000u64),
+        (&noise_uri, 999_999, 0),
+        (&ghost, 0, 0),
+    ] {
         let h = c.request(
             "textDocument/hover",
             json!({ "textDocument": { "uri": uri }, "position": { "line": line, "character": ch } }),
         );
         assert!(h.get("error").is_none(), "{h}");
-        let i =
-            c.request("textDocument/inlayHint", json!({ "textDocument": { "uri": uri }, "range": range(5, 0, 0, 0) }));
+        let i = c.request(
+            "textDocument/inlayHint",
+            json!({ "textDocument": { "uri": uri }, "range": range(5, 0, 0, 0) }),
+        );
         assert!(i.get("error").is_none(), "{i}");
-        let l = c.request("textDocument/codeLens", json!({ "textDocument": { "uri": uri } }));
+        let l = c.request(
+            "textDocument/codeLens",
+            json!({ "textDocument": { "uri": uri } }),
+        );
         assert!(l.get("error").is_none(), "{l}");
     }
     c.wait_analyzed(&deep_uri, 1);
     let e = c.diags(&deep_uri);
     assert!(
-        e.iter().any(|x| x["code"] == "syntax-error" && x["message"].as_str().unwrap().contains("nesting")),
+        e.iter()
+            .any(|x| x["code"] == "syntax-error"
+                && x["message"].as_str().unwrap().contains("nesting")),
         "{e:?}"
     );
     // the server's text of the clamped edits: appended at the end, then inserted at the end of line 0
@@ -360,9 +498,22 @@ fn hostile_buffers_and_requests_do_not_crash_the_server() {
     let t = c.call("seam/documentText", json!({ "uri": noise_uri }));
     let got = t["text"].as_str().unwrap();
     if got != want {
-        let at = got.chars().zip(want.chars()).position(|(a, b)| a != b).unwrap_or(got.len().min(want.len()));
-        let show = |s: &str| s.chars().skip(at.saturating_sub(3)).take(8).collect::<String>();
-        panic!("server text differs at char {at}: server {:?}, expected {:?}", show(got), show(&want));
+        let at = got
+            .chars()
+            .zip(want.chars())
+            .position(|(a, b)| a != b)
+            .unwrap_or(got.len().min(want.len()));
+        let show = |s: &str| {
+            s.chars()
+                .skip(at.saturating_sub(3))
+                .take(8)
+                .collect::<String>()
+        };
+        panic!(
+            "server text differs at char {at}: server {:?}, expected {:?}",
+            show(got),
+            show(&want)
+        );
     }
     assert_eq!(c.shutdown_and_exit().code(), Some(0));
 }

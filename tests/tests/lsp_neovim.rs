@@ -69,8 +69,17 @@ fn neovim_receives_diagnostics_and_hover() {
     copy_tree(&seam_tests::repo_root().join("tests").join("demo"), &root);
     let file = root.join("rtl").join("tg_logger.v");
     let text = std::fs::read_to_string(&file).unwrap();
-    let hover_line = text.lines().position(|l| l.contains("reg storm_s1, storm_s2;")).expect("demo line");
-    let hover_col = text.lines().nth(hover_line).unwrap().find("storm_s2").unwrap() + 2;
+    let hover_line = text
+        .lines()
+        .position(|l| l.contains("reg storm_s1, storm_s2;"))
+        .expect("demo line");
+    let hover_col = text
+        .lines()
+        .nth(hover_line)
+        .unwrap()
+        .find("storm_s2")
+        .unwrap()
+        + 2;
     let script = work.path().join("seam_test.lua");
     std::fs::write(&script, SCRIPT).unwrap();
     let out_file = work.path().join("out.json");
@@ -101,7 +110,8 @@ fn neovim_receives_diagnostics_and_hover() {
         std::thread::sleep(Duration::from_millis(50));
     }
     let out: Value =
-        serde_json::from_str(&std::fs::read_to_string(&out_file).expect("nvim wrote its results")).unwrap();
+        serde_json::from_str(&std::fs::read_to_string(&out_file).expect("nvim wrote its results"))
+            .unwrap();
     assert_eq!(out["client"], true);
     assert_eq!(out["waited"], true, "Neovim received diagnostics: {out}");
 
@@ -121,23 +131,48 @@ fn neovim_receives_diagnostics_and_hover() {
     let want: BTreeSet<(u64, u64, String)> = checker_findings(&root)
         .iter()
         .filter(|f| f["file"] == "rtl/tg_logger.v")
-        .map(|f| (f["line"].as_u64().unwrap(), f["column"].as_u64().unwrap(), f["rule"].as_str().unwrap().to_string()))
+        .map(|f| {
+            (
+                f["line"].as_u64().unwrap(),
+                f["column"].as_u64().unwrap(),
+                f["rule"].as_str().unwrap().to_string(),
+            )
+        })
         .collect();
-    assert_eq!(got, want, "Neovim's diagnostics are the checker's findings for tg_logger.v");
+    assert_eq!(
+        got, want,
+        "Neovim's diagnostics are the checker's findings for tg_logger.v"
+    );
 
-    let hover = out["hover"].as_str().unwrap_or_else(|| panic!("no hover: {out}"));
+    let hover = out["hover"]
+        .as_str()
+        .unwrap_or_else(|| panic!("no hover: {out}"));
     assert!(hover.contains("storm_s2"), "{hover}");
-    match seam_json(&["domains", "--format", "json", &root.to_string_lossy()], &root)
-        .and_then(|v| v["registers"].as_array().cloned())
-        .and_then(|r| r.into_iter().find(|r| r["signal"] == "storm_s2" && r["file"] == "rtl/tg_logger.v"))
-    {
+    match seam_json(
+        &["domains", "--format", "json", &root.to_string_lossy()],
+        &root,
+    )
+    .and_then(|v| v["registers"].as_array().cloned())
+    .and_then(|r| {
+        r.into_iter()
+            .find(|r| r["signal"] == "storm_s2" && r["file"] == "rtl/tg_logger.v")
+    }) {
         Some(r) => {
             let dom = r["domain"].as_str().unwrap();
-            assert!(hover.contains(&format!("`{dom}`")), "hover names the domain {dom}: {hover}");
+            assert!(
+                hover.contains(&format!("`{dom}`")),
+                "hover names the domain {dom}: {hover}"
+            );
         }
         None => eprintln!("note: seam domains does not list storm_s2; hover domain check skipped"),
     }
 
-    assert_eq!(out["server_text"], out["buffer_text"], "server text after Neovim's incremental edits");
-    assert_eq!(out["exit"]["code"], 0, "server exit code after Neovim's stop: {out}");
+    assert_eq!(
+        out["server_text"], out["buffer_text"],
+        "server text after Neovim's incremental edits"
+    );
+    assert_eq!(
+        out["exit"]["code"], 0,
+        "server exit code after Neovim's stop: {out}"
+    );
 }

@@ -43,10 +43,17 @@ fn rapid_incremental_edits_keep_the_text() {
     let start = "// Station log — niveau de la marée 🌊\nmodule tg_log_text (input wire clk_sys);\n  // Größe: 3 m\r\n  wire a;\rendmodule\n";
     let path = d.path().join("tg_log_text.v");
     std::fs::write(&path, start).unwrap();
-    let mut c = LspClient::start(d.path(), LspClient::default_capabilities(), json!({ "testMode": true }));
+    let mut c = LspClient::start(
+        d.path(),
+        LspClient::default_capabilities(),
+        json!({ "testMode": true }),
+    );
     let uri = c.open(&path, 1);
     let mut doc = Utf16Doc::new(start);
-    let pieces = ["é", "🌊", "中文", "x", "\n", "\r\n", "\r", "Ωμ", "  ", "𝄞𝄞", "reg r;", "\u{2028}", "\u{000C}", ""];
+    let pieces = [
+        "é", "🌊", "中文", "x", "\n", "\r\n", "\r", "Ωμ", "  ", "𝄞𝄞", "reg r;", "\u{2028}",
+        "\u{000C}", "",
+    ];
     let mut rng = Rng(0x005E_A1DE_2026);
     let mut version = 1;
     for i in 0..200 {
@@ -68,7 +75,11 @@ fn rapid_incremental_edits_keep_the_text() {
                     (l2, c2)
                 }
             };
-            let text = if i % 50 == 49 { "" } else { pieces[rng.below(pieces.len())] };
+            let text = if i % 50 == 49 {
+                ""
+            } else {
+                pieces[rng.below(pieces.len())]
+            };
             changes.push(doc.edit(l1, c1, l2, c2, text));
         }
         version += 1;
@@ -77,7 +88,10 @@ fn rapid_incremental_edits_keep_the_text() {
     // the test-only request is queued behind every change sent before it
     let got = c.call("seam/documentText", json!({ "uri": uri }));
     let got = got["text"].as_str().expect("document text");
-    assert_eq!(got, doc.text, "server text differs from the client's after 200 edits");
+    assert_eq!(
+        got, doc.text,
+        "server text differs from the client's after 200 edits"
+    );
     assert_eq!(c.shutdown_and_exit().code(), Some(0));
 }
 
@@ -93,10 +107,18 @@ fn form_feed_and_line_separator_do_not_shift_lines() {
     for (name, text) in [("tg_ff_plain.v", &plain), ("tg_ff_odd.v", &odd)] {
         let p = d.path().join(name);
         std::fs::write(&p, text).unwrap();
-        let mut c = LspClient::start(d.path(), LspClient::default_capabilities(), json!({ "testMode": true }));
+        let mut c = LspClient::start(
+            d.path(),
+            LspClient::default_capabilities(),
+            json!({ "testMode": true }),
+        );
         let uri = c.open(&p, 1);
         c.wait_analyzed(&uri, 1);
-        let e = c.diags(&uri).into_iter().find(|x| x["code"] == "syntax-error").expect("syntax error");
+        let e = c
+            .diags(&uri)
+            .into_iter()
+            .find(|x| x["code"] == "syntax-error")
+            .expect("syntax error");
         seen.push(e["range"].clone());
         // the error is on the line holding `q <= ;`, counted with the spec's line breaks only
         let doc = Utf16Doc::new(text);
@@ -104,7 +126,11 @@ fn form_feed_and_line_separator_do_not_shift_lines() {
             let (s, e) = doc.line_bytes(l);
             doc.text[s..e].contains("q <= ;")
         });
-        assert_eq!(e["range"]["start"]["line"].as_u64(), want.map(|l| l as u64), "{name}");
+        assert_eq!(
+            e["range"]["start"]["line"].as_u64(),
+            want.map(|l| l as u64),
+            "{name}"
+        );
         assert_eq!(c.shutdown_and_exit().code(), Some(0));
         std::fs::remove_file(&p).unwrap();
     }

@@ -11,9 +11,16 @@ use seam_tests::*;
 
 pub fn real_root() -> PathBuf {
     let root = repo_root().join("tests/.cache/real");
-    if !root.join("pythondata_misc_opentitan").is_dir() || !root.join("pythondata_cpu_ibex").is_dir() {
-        let st = Command::new(repo_root().join("tests/fetch-real-rtl")).status().expect("fetch-real-rtl");
-        assert!(st.success(), "could not fetch the real RTL packages from PyPI");
+    if !root.join("pythondata_misc_opentitan").is_dir()
+        || !root.join("pythondata_cpu_ibex").is_dir()
+    {
+        let st = Command::new(repo_root().join("tests/fetch-real-rtl"))
+            .status()
+            .expect("fetch-real-rtl");
+        assert!(
+            st.success(),
+            "could not fetch the real RTL packages from PyPI"
+        );
     }
     root
 }
@@ -21,7 +28,10 @@ pub fn real_root() -> PathBuf {
 fn skip_dir(p: &Path) -> bool {
     p.components().any(|c| {
         let s = c.as_os_str().to_string_lossy();
-        matches!(s.as_ref(), "dv" | "pre_dv" | "tb" | "test" | "fpv" | "sim" | "lint" | "formal" | "examples")
+        matches!(
+            s.as_ref(),
+            "dv" | "pre_dv" | "tb" | "test" | "fpv" | "sim" | "lint" | "formal" | "examples"
+        )
     })
 }
 
@@ -30,9 +40,17 @@ fn skip_dir(p: &Path) -> bool {
 fn rtl_files(base: &Path) -> (Vec<PathBuf>, Vec<PathBuf>) {
     let mut files = Vec::new();
     let mut dirs = Vec::new();
-    for e in walkdir::WalkDir::new(base).into_iter().filter_map(|e| e.ok()) {
+    for e in walkdir::WalkDir::new(base)
+        .into_iter()
+        .filter_map(|e| e.ok())
+    {
         let p = e.path();
-        if e.file_type().is_file() && matches!(p.extension().and_then(|x| x.to_str()), Some("svh") | Some("vh")) {
+        if e.file_type().is_file()
+            && matches!(
+                p.extension().and_then(|x| x.to_str()),
+                Some("svh") | Some("vh")
+            )
+        {
             if let Some(d) = p.parent() {
                 dirs.push(d.to_path_buf());
             }
@@ -45,7 +63,10 @@ fn rtl_files(base: &Path) -> (Vec<PathBuf>, Vec<PathBuf>) {
         }
         if e.file_type().is_file()
             && p.components().any(|c| c.as_os_str() == "rtl")
-            && matches!(p.extension().and_then(|x| x.to_str()), Some("sv") | Some("v"))
+            && matches!(
+                p.extension().and_then(|x| x.to_str()),
+                Some("sv") | Some("v")
+            )
         {
             files.push(p.to_path_buf());
         }
@@ -57,14 +78,21 @@ fn rtl_files(base: &Path) -> (Vec<PathBuf>, Vec<PathBuf>) {
 }
 
 fn defines_package(p: &Path) -> bool {
-    std::fs::read_to_string(p).map(|t| t.lines().any(|l| l.trim_start().starts_with("package "))).unwrap_or(false)
+    std::fs::read_to_string(p)
+        .map(|t| t.lines().any(|l| l.trim_start().starts_with("package ")))
+        .unwrap_or(false)
 }
 
 /// Runs `seam check --format json` over a generated filelist; returns (files, files with errors).
 fn parse_rate(name: &str, base: &Path) -> (usize, usize, Vec<String>) {
     let (files, dirs) = rtl_files(base);
-    assert!(files.len() > 100, "{name}: only {} files found", files.len());
-    let (mut pkgs, rest): (Vec<PathBuf>, Vec<PathBuf>) = files.into_iter().partition(|p| defines_package(p));
+    assert!(
+        files.len() > 100,
+        "{name}: only {} files found",
+        files.len()
+    );
+    let (mut pkgs, rest): (Vec<PathBuf>, Vec<PathBuf>) =
+        files.into_iter().partition(|p| defines_package(p));
     pkgs.extend(rest);
     let work = tempfile::tempdir().unwrap();
     let mut fl = String::new();
@@ -75,8 +103,22 @@ fn parse_rate(name: &str, base: &Path) -> (usize, usize, Vec<String>) {
         fl.push_str(&format!("{}\n", f.display()));
     }
     std::fs::write(work.path().join("real.f"), fl).unwrap();
-    std::fs::write(work.path().join("seam.toml"), "[design]\nfilelist = \"real.f\"\n").unwrap();
-    let out = seam(&["check", "--parse-only", "--format", "json", "--parse-timeout", "120"], work.path());
+    std::fs::write(
+        work.path().join("seam.toml"),
+        "[design]\nfilelist = \"real.f\"\n",
+    )
+    .unwrap();
+    let out = seam(
+        &[
+            "check",
+            "--parse-only",
+            "--format",
+            "json",
+            "--parse-timeout",
+            "120",
+        ],
+        work.path(),
+    );
     let v: serde_json::Value = serde_json::from_slice(&out.stdout).expect("json");
     let total = v["files"].as_u64().unwrap() as usize;
     let mut bad: Vec<String> = v["findings"]
@@ -84,7 +126,14 @@ fn parse_rate(name: &str, base: &Path) -> (usize, usize, Vec<String>) {
         .unwrap()
         .iter()
         .filter(|f| f["rule"] == "syntax-error" && f["severity"] == "error")
-        .map(|f| format!("{}:{}: {}", f["file"].as_str().unwrap_or(""), f["line"], f["message"].as_str().unwrap_or("")))
+        .map(|f| {
+            format!(
+                "{}:{}: {}",
+                f["file"].as_str().unwrap_or(""),
+                f["line"],
+                f["message"].as_str().unwrap_or("")
+            )
+        })
         .collect();
     bad.sort();
     bad.dedup_by(|a, b| a.split(':').next() == b.split(':').next());

@@ -13,8 +13,13 @@ fn check_json(dir: &Path, extra: &[&str]) -> (serde_json::Value, i32, Duration) 
     let out = seam(&args, dir);
     let took = t.elapsed();
     let code = out.status.code().expect("seam exited by a signal");
-    let v: serde_json::Value = serde_json::from_slice(&out.stdout)
-        .unwrap_or_else(|e| panic!("bad JSON ({e}): {}\n{}", String::from_utf8_lossy(&out.stdout), String::from_utf8_lossy(&out.stderr)));
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap_or_else(|e| {
+        panic!(
+            "bad JSON ({e}): {}\n{}",
+            String::from_utf8_lossy(&out.stdout),
+            String::from_utf8_lossy(&out.stderr)
+        )
+    });
     (v, code, took)
 }
 
@@ -38,7 +43,11 @@ fn assert_one_syntax_error(v: &serde_json::Value, what: &str) -> serde_json::Val
 
 #[test]
 fn deep_parenthesis_nest() {
-    let src = format!("module deep(output wire y);\n  assign y = {}1'b1{};\nendmodule\n", "(".repeat(5000), ")".repeat(5000));
+    let src = format!(
+        "module deep(output wire y);\n  assign y = {}1'b1{};\nendmodule\n",
+        "(".repeat(5000),
+        ")".repeat(5000)
+    );
     let d = one_file("deep.v", src.as_bytes());
     let (v, code, took) = check_json(d.path(), &[]);
     assert_eq!(code, 1);
@@ -54,24 +63,39 @@ fn macro_expanding_to_deep_nesting() {
     // after expansion (the source text itself nests 8 levels)
     let mut src = format!("`define N0(x) {} x {}\n", "(".repeat(40), ")".repeat(40));
     let use_site = (0..8).fold("1'b1".to_string(), |acc, _| format!("`N0({acc})"));
-    src.push_str(&format!("module mdeep(output wire y);\n  assign y = {use_site};\nendmodule\n"));
+    src.push_str(&format!(
+        "module mdeep(output wire y);\n  assign y = {use_site};\nendmodule\n"
+    ));
     let d = one_file("mdeep.v", src.as_bytes());
     let (v, code, _) = check_json(d.path(), &[]);
     assert_eq!(code, 1);
     let f = assert_one_syntax_error(&v, "macro nest");
-    assert!(f["message"].as_str().unwrap().contains("macro expansion"), "{f}");
+    assert!(
+        f["message"].as_str().unwrap().contains("macro expansion"),
+        "{f}"
+    );
 }
 
 #[test]
 fn file_over_the_size_limit() {
     let d = tempfile::tempdir().unwrap();
-    std::fs::write(d.path().join("seam.toml"), "[design]\nmax_file_bytes = 1000\n").unwrap();
-    let body = format!("module big(output wire y);\n{}  assign y = 1'b0;\nendmodule\n", "  // padding padding padding\n".repeat(100));
+    std::fs::write(
+        d.path().join("seam.toml"),
+        "[design]\nmax_file_bytes = 1000\n",
+    )
+    .unwrap();
+    let body = format!(
+        "module big(output wire y);\n{}  assign y = 1'b0;\nendmodule\n",
+        "  // padding padding padding\n".repeat(100)
+    );
     std::fs::write(d.path().join("big.v"), body).unwrap();
     let (v, code, _) = check_json(d.path(), &[]);
     assert_eq!(code, 1);
     let f = assert_one_syntax_error(&v, "size");
-    assert!(f["message"].as_str().unwrap().contains("over the limit"), "{f}");
+    assert!(
+        f["message"].as_str().unwrap().contains("over the limit"),
+        "{f}"
+    );
 }
 
 #[test]
@@ -106,7 +130,11 @@ fn include_cycle() {
     let d = tempfile::tempdir().unwrap();
     std::fs::write(d.path().join("a.vh"), "`include \"b.vh\"\n").unwrap();
     std::fs::write(d.path().join("b.vh"), "`include \"a.vh\"\n").unwrap();
-    std::fs::write(d.path().join("top.v"), "`include \"a.vh\"\nmodule top(output wire y);\n  assign y = 1'b0;\nendmodule\n").unwrap();
+    std::fs::write(
+        d.path().join("top.v"),
+        "`include \"a.vh\"\nmodule top(output wire y);\n  assign y = 1'b0;\nendmodule\n",
+    )
+    .unwrap();
     let (v, code, took) = check_json(d.path(), &[]);
     assert_eq!(code, 1);
     let f = assert_one_syntax_error(&v, "cycle");
@@ -122,7 +150,10 @@ fn empty_file_is_reported_not_fatal() {
     let f = findings(&v);
     assert_eq!(f.len(), 1, "{v}");
     assert_eq!(f[0]["severity"], "hint");
-    assert!(f[0]["message"].as_str().unwrap().contains("no design units"));
+    assert!(f[0]["message"]
+        .as_str()
+        .unwrap()
+        .contains("no design units"));
 }
 
 #[test]
@@ -133,7 +164,10 @@ fn half_typed_buffer_points_at_the_line() {
     assert_eq!(code, 1);
     let f = assert_one_syntax_error(&v, "half");
     let line = f["line"].as_u64().unwrap();
-    assert!((3..=4).contains(&line), "error near the missing semicolon: {f}");
+    assert!(
+        (3..=4).contains(&line),
+        "error near the missing semicolon: {f}"
+    );
 }
 
 #[test]
@@ -142,7 +176,11 @@ fn missing_include_points_at_the_include_line() {
     let d = one_file("inc.v", src.as_bytes());
     let (v, _, _) = check_json(d.path(), &[]);
     let f = assert_one_syntax_error(&v, "missing include");
-    assert_eq!((f["line"].as_u64(), f["column"].as_u64()), (Some(3), Some(1)), "{f}");
+    assert_eq!(
+        (f["line"].as_u64(), f["column"].as_u64()),
+        (Some(3), Some(1)),
+        "{f}"
+    );
     assert!(f["message"].as_str().unwrap().contains("not_there.vh"));
 }
 
@@ -152,14 +190,22 @@ fn undefined_macro_points_at_its_use() {
     let d = one_file("mac.v", src.as_bytes());
     let (v, _, _) = check_json(d.path(), &[]);
     let f = assert_one_syntax_error(&v, "undefined macro");
-    assert_eq!((f["line"].as_u64(), f["column"].as_u64()), (Some(2), Some(14)), "{f}");
+    assert_eq!(
+        (f["line"].as_u64(), f["column"].as_u64()),
+        (Some(2), Some(14)),
+        "{f}"
+    );
 }
 
 #[test]
 fn good_files_survive_beside_bad_ones() {
     let d = tempfile::tempdir().unwrap();
     std::fs::write(d.path().join("bad.v"), "module bad(\n").unwrap();
-    std::fs::write(d.path().join("good.v"), "module good(input a, output b);\n  assign b = a;\nendmodule\n").unwrap();
+    std::fs::write(
+        d.path().join("good.v"),
+        "module good(input a, output b);\n  assign b = a;\nendmodule\n",
+    )
+    .unwrap();
     let (v, code, _) = check_json(d.path(), &[]);
     assert_eq!(code, 1);
     assert_eq!(v["files"], 2);
@@ -173,12 +219,22 @@ fn usage_and_config_errors_exit_2_with_one_line() {
     let out = seam(&["check", "no/such/path"], d.path());
     assert_eq!(out.status.code(), Some(2));
     let err = String::from_utf8_lossy(&out.stderr);
-    assert!(err.contains("no/such/path") && err.lines().count() == 1, "{err}");
-    std::fs::write(d.path().join("seam.toml"), "[design]\nfiles = [\"*.v\"]\n\n[clocks]\nclk = { frequency = \"fast\" }\n").unwrap();
+    assert!(
+        err.contains("no/such/path") && err.lines().count() == 1,
+        "{err}"
+    );
+    std::fs::write(
+        d.path().join("seam.toml"),
+        "[design]\nfiles = [\"*.v\"]\n\n[clocks]\nclk = { frequency = \"fast\" }\n",
+    )
+    .unwrap();
     let out = seam(&["check"], d.path());
     assert_eq!(out.status.code(), Some(2));
     let err = String::from_utf8_lossy(&out.stderr);
-    assert!(err.contains("seam.toml:5") && err.contains("frequency"), "{err}");
+    assert!(
+        err.contains("seam.toml:5") && err.contains("frequency"),
+        "{err}"
+    );
     let out = seam(&["check", "--format", "yaml"], d.path());
     assert_eq!(out.status.code(), Some(2));
 }

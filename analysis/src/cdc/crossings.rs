@@ -20,7 +20,10 @@ pub enum DIn {
     /// One bit of a leaf (register or input), with the signals passed on the way.
     Single { leaf: Bit, hops: Vec<SigId> },
     /// Logic; `foreign_bits` counts source bits from other domains.
-    Logic { foreign: Vec<SigId>, foreign_bits: u32 },
+    Logic {
+        foreign: Vec<SigId>,
+        foreign_bits: u32,
+    },
     /// Only this domain's signals or constants.
     Local,
 }
@@ -57,7 +60,11 @@ fn width(ctx: &Ctx, s: SigId) -> u32 {
 }
 
 /// Non-reset assignments of a register, with the bit offset of `b` in each target.
-fn assigns_for<'c>(ctx: &'c Ctx, r: SigId, b: u32) -> Vec<(&'c crate::design::netlist::FAssign, u32)> {
+fn assigns_for<'c>(
+    ctx: &'c Ctx,
+    r: SigId,
+    b: u32,
+) -> Vec<(&'c crate::design::netlist::FAssign, u32)> {
     let pi = ctx.g.reg_proc[&r];
     ctx.n.procs[pi]
         .assigns
@@ -71,7 +78,9 @@ fn assigns_for<'c>(ctx: &'c Ctx, r: SigId, b: u32) -> Vec<(&'c crate::design::ne
 fn copy_source(ctx: &Ctx, r: SigId, b: u32) -> Option<(Bit, Vec<SigId>)> {
     let mut src: Option<(Bit, Vec<SigId>)> = None;
     for (a, off) in assigns_for(ctx, r, b) {
-        let BitSrc::Copy(s, k) = ctx.g.bit_of(&a.rhs, off) else { return None };
+        let BitSrc::Copy(s, k) = ctx.g.bit_of(&a.rhs, off) else {
+            return None;
+        };
         let (ls, lb, hops) = ctx.g.through_copies(s, k);
         if (ls, lb) == (r, b) {
             continue; // a hold (`q <= q`) is not a source
@@ -94,14 +103,23 @@ impl Crossings {
         for &r in &regs {
             for b in 0..width(ctx, r) {
                 if let Some((src, hops)) = copy_source(ctx, r, b) {
-                    followers.entry(src).or_default().push(Follower { bit: (r, b), hops });
+                    followers
+                        .entry(src)
+                        .or_default()
+                        .push(Follower { bit: (r, b), hops });
                 }
             }
         }
-        let mut cx = Crossings { dests: vec![], followers, stage_bits: HashMap::new() };
+        let mut cx = Crossings {
+            dests: vec![],
+            followers,
+            stage_bits: HashMap::new(),
+        };
         // destinations
         for &r in &regs {
-            let Some(dom) = ctx.domain_of_reg(r).map(|d| d.to_string()) else { continue };
+            let Some(dom) = ctx.domain_of_reg(r).map(|d| d.to_string()) else {
+                continue;
+            };
             if ctx.n.sigs[r].name.is_empty() {
                 continue;
             }
@@ -109,7 +127,10 @@ impl Crossings {
             let mut sources: BTreeMap<String, Vec<SigId>> = BTreeMap::new();
             let mut read_span = None;
             for a in ctx.n.procs[pi].assigns.iter().filter(|a| !a.in_reset) {
-                if !crate::design::graph::targets(&a.target).iter().any(|t| ctx.g.sig(t) == Some(r)) {
+                if !crate::design::graph::targets(&a.target)
+                    .iter()
+                    .any(|t| ctx.g.sig(t) == Some(r))
+                {
                     continue;
                 }
                 let mut reads: Vec<&Expr> = a.rhs.idents();
@@ -148,7 +169,14 @@ impl Crossings {
             if bits.is_empty() {
                 continue;
             }
-            cx.dests.push(Dest { reg: r, domain: dom, sources, bits, read_span: read_span.unwrap_or_default(), qualified: false });
+            cx.dests.push(Dest {
+                reg: r,
+                domain: dom,
+                sources,
+                bits,
+                read_span: read_span.unwrap_or_default(),
+                qualified: false,
+            });
         }
         // chain lengths and stages
         for i in 0..cx.dests.len() {
@@ -195,7 +223,16 @@ impl Crossings {
                         _ => {
                             // logic behind the alias
                             logic = true;
-                            count_foreign(ctx, &Expr::Ident { name: ctx.n.sigs[ls].name.clone(), loc: Default::default() }, dom, &mut foreign, &mut foreign_bits);
+                            count_foreign(
+                                ctx,
+                                &Expr::Ident {
+                                    name: ctx.n.sigs[ls].name.clone(),
+                                    loc: Default::default(),
+                                },
+                                dom,
+                                &mut foreign,
+                                &mut foreign_bits,
+                            );
                         }
                     }
                 }
@@ -218,10 +255,16 @@ impl Crossings {
                 return DIn::Single { leaf, hops };
             }
             let l = *foreign.iter().next().unwrap_or(&0);
-            return DIn::Single { leaf: (l, 0), hops: vec![] };
+            return DIn::Single {
+                leaf: (l, 0),
+                hops: vec![],
+            };
         }
         let _ = logic;
-        DIn::Logic { foreign: foreign.into_iter().collect(), foreign_bits }
+        DIn::Logic {
+            foreign: foreign.into_iter().collect(),
+            foreign_bits,
+        }
     }
 
     /// Number of stages from this register bit on (itself included).
@@ -237,12 +280,17 @@ impl Crossings {
     }
 
     pub fn same_clock_followers<'s>(&'s self, ctx: &Ctx, bit: Bit) -> Vec<&'s Follower> {
-        let Some(fs) = self.followers.get(&bit) else { return vec![] };
+        let Some(fs) = self.followers.get(&bit) else {
+            return vec![];
+        };
         let me = &ctx.reg_clock[&bit.0];
         fs.iter()
             .filter(|f| {
                 let other = &ctx.reg_clock[&f.bit.0];
-                f.bit != bit && other.root.is_some() && other.root == me.root && other.edge == me.edge
+                f.bit != bit
+                    && other.root.is_some()
+                    && other.root == me.root
+                    && other.edge == me.edge
             })
             .collect()
     }
@@ -251,11 +299,18 @@ impl Crossings {
         if depth > 16 {
             return;
         }
-        let e = self.stage_bits.entry(bit).or_insert((k, n, src.to_string()));
+        let e = self
+            .stage_bits
+            .entry(bit)
+            .or_insert((k, n, src.to_string()));
         if e.0 < k {
             *e = (k, n, src.to_string());
         }
-        let next: Vec<Bit> = self.same_clock_followers(ctx, bit).iter().map(|f| f.bit).collect();
+        let next: Vec<Bit> = self
+            .same_clock_followers(ctx, bit)
+            .iter()
+            .map(|f| f.bit)
+            .collect();
         for f in next {
             self.mark(ctx, f, k + 1, n, src, depth + 1);
         }
@@ -268,18 +323,27 @@ impl Crossings {
         let pi = ctx.g.reg_proc[&d.reg];
         let mut any = false;
         for a in ctx.n.procs[pi].assigns.iter().filter(|a| !a.in_reset) {
-            if !crate::design::graph::targets(&a.target).iter().any(|t| ctx.g.sig(t) == Some(d.reg)) {
+            if !crate::design::graph::targets(&a.target)
+                .iter()
+                .any(|t| ctx.g.sig(t) == Some(d.reg))
+            {
                 continue;
             }
             let reads_foreign = a.rhs.idents().iter().any(|id| {
-                ctx.g.sig(id).is_some_and(|s| ctx.leaves(s).iter().any(|l| d.sources.values().any(|v| v.contains(l))))
+                ctx.g.sig(id).is_some_and(|s| {
+                    ctx.leaves(s)
+                        .iter()
+                        .any(|l| d.sources.values().any(|v| v.contains(l)))
+                })
             });
             if !reads_foreign {
                 continue;
             }
             any = true;
             let ok = a.guards.iter().filter(|g| g.polarity).any(|g| {
-                conjuncts(&g.cond).iter().any(|t| self.is_sync_enable(ctx, t, &d.domain, min))
+                conjuncts(&g.cond)
+                    .iter()
+                    .any(|t| self.is_sync_enable(ctx, t, &d.domain, min))
             });
             if !ok {
                 return false;
@@ -298,7 +362,9 @@ impl Crossings {
         for id in t.idents() {
             let Some(s) = ctx.g.sig(id) else { continue };
             for &l in ctx.leaves(s).iter() {
-                let st = (0..width(ctx, l)).filter_map(|b| self.stage_bits.get(&(l, b))).max_by_key(|x| x.0);
+                let st = (0..width(ctx, l))
+                    .filter_map(|b| self.stage_bits.get(&(l, b)))
+                    .max_by_key(|x| x.0);
                 match st {
                     Some(st) if st.0 >= min => stage = true,
                     _ => {
@@ -339,7 +405,14 @@ pub fn conjuncts(e: &Expr) -> Vec<&Expr> {
 
 /// Count source bits from other domains read by an expression.
 fn count_foreign(ctx: &Ctx, e: &Expr, dom: &str, foreign: &mut BTreeSet<SigId>, bits: &mut u32) {
-    fn rec(ctx: &Ctx, e: &Expr, dom: &str, foreign: &mut BTreeSet<SigId>, bits: &mut u32, selected: bool) {
+    fn rec(
+        ctx: &Ctx,
+        e: &Expr,
+        dom: &str,
+        foreign: &mut BTreeSet<SigId>,
+        bits: &mut u32,
+        selected: bool,
+    ) {
         match e {
             Expr::Select { base, sel } => {
                 let one = matches!(sel.as_ref(), Select::Bit { .. });
@@ -368,7 +441,13 @@ fn count_foreign(ctx: &Ctx, e: &Expr, dom: &str, foreign: &mut BTreeSet<SigId>, 
                     if let Some(d) = ctx.leaf_domain(l) {
                         if d != dom && foreign.insert(l) {
                             let w = ctx.n.sigs[l].width.unwrap_or(1);
-                            *bits += if selected && direct { 1 } else if direct { w } else { w.max(1) + u32::from(!direct) };
+                            *bits += if selected && direct {
+                                1
+                            } else if direct {
+                                w
+                            } else {
+                                w.max(1) + u32::from(!direct)
+                            };
                         }
                     }
                 }

@@ -22,11 +22,16 @@ pub struct CdcResult {
 /// Hierarchical name without the top module: `u_log.alarm`.
 pub fn short(ctx: &Ctx, s: SigId) -> String {
     let n = &ctx.n.sigs[s].name;
-    n.split_once('.').map(|(_, r)| r.to_string()).unwrap_or(n.clone())
+    n.split_once('.')
+        .map(|(_, r)| r.to_string())
+        .unwrap_or(n.clone())
 }
 
 pub fn related(ctx: &Ctx, s: SigId, what: &str) -> Related {
-    Related { span: ctx.sig_span(s), message: format!("{what}: {}", short(ctx, s)) }
+    Related {
+        span: ctx.sig_span(s),
+        message: format!("{what}: {}", short(ctx, s)),
+    }
 }
 
 /// Findings inside trusted synchronizer modules are not reported (their use is checked).
@@ -54,6 +59,17 @@ pub fn run(ctx: &Ctx) -> CdcResult {
     }
     // the same module instantiated several times reports each place once
     let mut seen = std::collections::HashSet::new();
-    findings.retain(|f| seen.insert((f.rule.clone(), f.span.file.clone(), f.span.start, f.message.clone())));
-    CdcResult { findings, crossings, stages }
+    findings.retain(|f| {
+        seen.insert((
+            f.rule.clone(),
+            f.span.file.clone(),
+            f.span.start,
+            f.message.clone(),
+        ))
+    });
+    CdcResult {
+        findings,
+        crossings,
+        stages,
+    }
 }

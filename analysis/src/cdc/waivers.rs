@@ -27,7 +27,11 @@ pub fn apply(mut findings: Vec<Finding>, models: &[FileModel], config: &Config) 
             continue;
         }
         // inline comments
-        if let Some((mi, m)) = models.iter().enumerate().find(|(_, m)| m.path == f.span.file) {
+        if let Some((mi, m)) = models
+            .iter()
+            .enumerate()
+            .find(|(_, m)| m.path == f.span.file)
+        {
             for (wi, w) in m.waivers.iter().enumerate() {
                 let on_line = w.line == f.span.line || w.line + 1 == f.span.line;
                 if on_line && w.rules.iter().any(|r| r == &f.rule || r == "all") {
@@ -59,24 +63,47 @@ pub fn apply(mut findings: Vec<Finding>, models: &[FileModel], config: &Config) 
                     UNUSED,
                     Severity::Hint,
                     w.span.clone(),
-                    format!("waiver for `{}` matches no finding on this line or the next", w.rules.join(", ")),
+                    format!(
+                        "waiver for `{}` matches no finding on this line or the next",
+                        w.rules.join(", ")
+                    ),
                 ));
             } else if w.reason.trim().is_empty() {
                 extra.push(Finding::new(
                     UNUSED,
                     Severity::Hint,
                     w.span.clone(),
-                    format!("waiver for `{}` has no reason: say why the crossing is safe", w.rules.join(", ")),
+                    format!(
+                        "waiver for `{}` has no reason: say why the crossing is safe",
+                        w.rules.join(", ")
+                    ),
                 ));
             }
         }
     }
     for (i, w) in config.waivers.iter().enumerate() {
-        let span = Span { file: "seam.toml".into(), line: w.line as u32, column: w.column as u32, end_line: w.line as u32, end_column: w.column as u32, ..Default::default() };
+        let span = Span {
+            file: "seam.toml".into(),
+            line: w.line as u32,
+            column: w.column as u32,
+            end_line: w.line as u32,
+            end_column: w.column as u32,
+            ..Default::default()
+        };
         if !used_config[i] {
-            extra.push(Finding::new(UNUSED, Severity::Hint, span, format!("`[[waive]]` entry for `{}` matches no finding", w.rule)));
+            extra.push(Finding::new(
+                UNUSED,
+                Severity::Hint,
+                span,
+                format!("`[[waive]]` entry for `{}` matches no finding", w.rule),
+            ));
         } else if w.reason.as_deref().unwrap_or("").trim().is_empty() {
-            extra.push(Finding::new(UNUSED, Severity::Hint, span, format!("`[[waive]]` entry for `{}` has no reason", w.rule)));
+            extra.push(Finding::new(
+                UNUSED,
+                Severity::Hint,
+                span,
+                format!("`[[waive]]` entry for `{}` has no reason", w.rule),
+            ));
         }
     }
     findings.extend(extra);

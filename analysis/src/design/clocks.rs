@@ -36,7 +36,11 @@ impl<'a> Ctx<'a> {
             return Some(sig.local.clone());
         }
         // hierarchical key relative to the top: "u_pll.clk_out"
-        let rel = sig.name.split_once('.').map(|(_, r)| r).unwrap_or(&sig.name);
+        let rel = sig
+            .name
+            .split_once('.')
+            .map(|(_, r)| r)
+            .unwrap_or(&sig.name);
         if self.config.clocks.contains_key(rel) {
             return Some(rel.to_string());
         }
@@ -89,7 +93,8 @@ impl<'a> Ctx<'a> {
         let Some(ds) = self.g.drivers.get(&s) else {
             // undriven: a black-box output is a root of its own
             if let Some((inst, pin, _)) = self.n.blackbox_pins.iter().find(|(_, _, x)| *x == s) {
-                t.roots.insert(format!("{}.{pin}", self.n.insts[*inst].path));
+                t.roots
+                    .insert(format!("{}.{pin}", self.n.insts[*inst].path));
             }
             return;
         };
@@ -125,13 +130,20 @@ impl<'a> Ctx<'a> {
             Expr::Call { name, args } if name == "$seam_clock_mux" && !args.is_empty() => {
                 let pinned = self.pinned(&args[0]);
                 match pinned {
-                    Some(v) if (v as usize) + 1 < args.len() => self.trace_expr(&args[v as usize + 1], span, t, depth + 1),
-                    _ => args[1..].iter().for_each(|a| self.trace_expr(a, span, t, depth + 1)),
+                    Some(v) if (v as usize) + 1 < args.len() => {
+                        self.trace_expr(&args[v as usize + 1], span, t, depth + 1)
+                    }
+                    _ => args[1..]
+                        .iter()
+                        .for_each(|a| self.trace_expr(a, span, t, depth + 1)),
                 }
             }
             Expr::Call { name, args } if name == "$seam_clock_source" => {
                 if let Some(Expr::Const { text, .. }) = args.first() {
-                    let top_rel = text.split_once('.').map(|(_, r)| r.to_string()).unwrap_or(text.clone());
+                    let top_rel = text
+                        .split_once('.')
+                        .map(|(_, r)| r.to_string())
+                        .unwrap_or(text.clone());
                     t.roots.insert(top_rel);
                 }
             }
@@ -157,8 +169,10 @@ impl<'a> Ctx<'a> {
                     traced.push((op, sub));
                 }
                 // several candidates: the ones named in `[clocks]` are the clock
-                let named = |c: &ClockTrace| c.roots.iter().any(|r| self.config.clocks.contains_key(r));
-                let prefer_named = traced.iter().filter(|(_, c)| !c.roots.is_empty()).count() > 1 && traced.iter().any(|(_, c)| named(c));
+                let named =
+                    |c: &ClockTrace| c.roots.iter().any(|r| self.config.clocks.contains_key(r));
+                let prefer_named = traced.iter().filter(|(_, c)| !c.roots.is_empty()).count() > 1
+                    && traced.iter().any(|(_, c)| named(c));
                 let mut clocks = Vec::new();
                 let mut enables = Vec::new();
                 for (op, c) in traced {
@@ -192,7 +206,11 @@ impl<'a> Ctx<'a> {
         let s = self.g.sig(e)?;
         let name = &self.n.sigs[s].name;
         let rel = name.split_once('.').map(|(_, r)| r).unwrap_or(name);
-        let v = self.config.constants.get(rel).or_else(|| self.config.constants.get(&self.n.sigs[s].local))?;
+        let v = self
+            .config
+            .constants
+            .get(rel)
+            .or_else(|| self.config.constants.get(&self.n.sigs[s].local))?;
         crate::model::expr::literal_value(v).0
     }
 }

@@ -73,7 +73,9 @@ fn eval_d(e: &Expr, env: &Env, depth: u32) -> Option<i64> {
                 64 - ((v - 1) as u64).leading_zeros() as i64
             }
         }
-        Expr::Call { name, args } if (name == "$bits" || name.ends_with('\'')) && args.len() == 1 => {
+        Expr::Call { name, args }
+            if (name == "$bits" || name.ends_with('\'')) && args.len() == 1 =>
+        {
             // casts keep the value; $bits of a constant is not modelled
             if name == "$bits" {
                 return None;

@@ -33,7 +33,11 @@ pub struct Graph<'n> {
 
 impl<'n> Graph<'n> {
     pub fn new(n: &'n Netlist) -> Self {
-        let mut g = Graph { n, reg_proc: HashMap::new(), drivers: HashMap::new() };
+        let mut g = Graph {
+            n,
+            reg_proc: HashMap::new(),
+            drivers: HashMap::new(),
+        };
         for (pi, p) in n.procs.iter().enumerate() {
             for (ai, a) in p.assigns.iter().enumerate() {
                 for t in targets(&a.target) {
@@ -41,7 +45,10 @@ impl<'n> Graph<'n> {
                     if p.clock.is_some() {
                         g.reg_proc.entry(s).or_insert(pi);
                     } else {
-                        g.drivers.entry(s).or_default().push(Driver::CombProc(pi, ai));
+                        g.drivers
+                            .entry(s)
+                            .or_default()
+                            .push(Driver::CombProc(pi, ai));
                     }
                 }
             }
@@ -77,7 +84,9 @@ impl<'n> Graph<'n> {
                     let (m, l) = (const_of(msb)?, const_of(lsb)?);
                     Some((m - l).unsigned_abs() as u32 + 1)
                 }
-                Select::Up { width, .. } | Select::Down { width, .. } => const_of(width).map(|w| w as u32),
+                Select::Up { width, .. } | Select::Down { width, .. } => {
+                    const_of(width).map(|w| w as u32)
+                }
             },
             Expr::Const { width, .. } => *width,
             Expr::Concat { parts } => parts.iter().map(|p| self.width_of(p)).sum(),
@@ -93,7 +102,9 @@ impl<'n> Graph<'n> {
                 "<<" | ">>" | "<<<" | ">>>" => self.width_of(lhs),
                 _ => Some(self.width_of(lhs)?.max(self.width_of(rhs)?)),
             },
-            Expr::Ternary { then, other, .. } => Some(self.width_of(then)?.max(self.width_of(other)?)),
+            Expr::Ternary { then, other, .. } => {
+                Some(self.width_of(then)?.max(self.width_of(other)?))
+            }
             _ => None,
         }
     }
@@ -109,7 +120,9 @@ impl<'n> Graph<'n> {
                 None => BitSrc::Logic,
             },
             Expr::Select { base, sel } => {
-                let Some(s) = self.sig(base) else { return BitSrc::Logic };
+                let Some(s) = self.sig(base) else {
+                    return BitSrc::Logic;
+                };
                 if !matches!(**base, Expr::Ident { .. }) || self.n.sigs[s].memory {
                     return BitSrc::Logic;
                 }
@@ -132,12 +145,16 @@ impl<'n> Graph<'n> {
                         _ => BitSrc::Logic,
                     },
                     Select::Up { base: st, width } => match (const_of(st), const_of(width)) {
-                        (Some(st), Some(w)) if (b as i64) < w => BitSrc::Copy(s, (st - lsb + b as i64).max(0) as u32),
+                        (Some(st), Some(w)) if (b as i64) < w => {
+                            BitSrc::Copy(s, (st - lsb + b as i64).max(0) as u32)
+                        }
                         (Some(_), Some(_)) => BitSrc::Const(false),
                         _ => BitSrc::Logic,
                     },
                     Select::Down { base: st, width } => match (const_of(st), const_of(width)) {
-                        (Some(st), Some(w)) if (b as i64) < w => BitSrc::Copy(s, (st - w + 1 - lsb + b as i64).max(0) as u32),
+                        (Some(st), Some(w)) if (b as i64) < w => {
+                            BitSrc::Copy(s, (st - w + 1 - lsb + b as i64).max(0) as u32)
+                        }
                         (Some(_), Some(_)) => BitSrc::Const(false),
                         _ => BitSrc::Logic,
                     },
@@ -147,7 +164,9 @@ impl<'n> Graph<'n> {
             Expr::Concat { parts } => {
                 let mut off = 0u32;
                 for p in parts.iter().rev() {
-                    let Some(w) = self.width_of(p) else { return BitSrc::Logic };
+                    let Some(w) = self.width_of(p) else {
+                        return BitSrc::Logic;
+                    };
                     if b < off + w {
                         return self.bit_of(p, b - off);
                     }
@@ -156,9 +175,15 @@ impl<'n> Graph<'n> {
                 BitSrc::Const(false)
             }
             Expr::Repl { count, parts } => {
-                let Some(c) = const_of(count) else { return BitSrc::Logic };
-                let inner = Expr::Concat { parts: parts.clone() };
-                let Some(w) = self.width_of(&inner) else { return BitSrc::Logic };
+                let Some(c) = const_of(count) else {
+                    return BitSrc::Logic;
+                };
+                let inner = Expr::Concat {
+                    parts: parts.clone(),
+                };
+                let Some(w) = self.width_of(&inner) else {
+                    return BitSrc::Logic;
+                };
                 if w == 0 || b >= w * c as u32 {
                     return BitSrc::Const(false);
                 }
@@ -177,7 +202,9 @@ impl<'n> Graph<'n> {
             if self.is_reg(s) {
                 break;
             }
-            let Some(ds) = self.drivers.get(&s) else { break };
+            let Some(ds) = self.drivers.get(&s) else {
+                break;
+            };
             let mut next = None;
             for d in ds {
                 let (target, rhs) = match d {

@@ -48,7 +48,15 @@ pub fn async_domain(port: &str) -> String {
 impl<'a> Ctx<'a> {
     pub fn new(n: &'a Netlist, config: &'a Config, files: &'a [FileModel]) -> Self {
         let g = Graph::new(n);
-        let mut c = Ctx { n, g, config, files, reg_clock: HashMap::new(), clock_nets: BTreeSet::new(), leaves: Default::default() };
+        let mut c = Ctx {
+            n,
+            g,
+            config,
+            files,
+            reg_clock: HashMap::new(),
+            clock_nets: BTreeSet::new(),
+            leaves: Default::default(),
+        };
         let mut regs: Vec<(SigId, usize)> = c.g.reg_proc.iter().map(|(s, p)| (*s, *p)).collect();
         regs.sort();
         let mut per_proc: HashMap<usize, RegClock> = HashMap::new();
@@ -59,7 +67,9 @@ impl<'a> Ctx<'a> {
                     let (e, edge) = c.n.procs[pi].clock.clone().expect("clocked");
                     let trace = c.trace_clock(&e);
                     let root = trace.roots.iter().next().cloned();
-                    let domain = root.as_ref().map(|r| c.config.domain_of_clock(r).to_string());
+                    let domain = root
+                        .as_ref()
+                        .map(|r| c.config.domain_of_clock(r).to_string());
                     let edge = if trace.inverted {
                         match edge {
                             Edge::Posedge => Edge::Negedge,
@@ -69,7 +79,12 @@ impl<'a> Ctx<'a> {
                     } else {
                         edge
                     };
-                    RegClock { root, domain, edge, trace }
+                    RegClock {
+                        root,
+                        domain,
+                        edge,
+                        trace,
+                    }
                 })
                 .clone();
             c.clock_nets.extend(rc.trace.nets.iter().copied());
@@ -151,13 +166,23 @@ impl<'a> Ctx<'a> {
 
     /// Data domains of a signal: the domains of its leaves.
     pub fn domains(&self, s: SigId) -> BTreeSet<String> {
-        self.leaves(s).iter().filter_map(|l| self.leaf_domain(*l)).collect()
+        self.leaves(s)
+            .iter()
+            .filter_map(|l| self.leaf_domain(*l))
+            .collect()
     }
 
     pub fn is_static(&self, s: SigId) -> bool {
         let sig = &self.n.sigs[s];
-        let rel = sig.name.split_once('.').map(|(_, r)| r).unwrap_or(&sig.name);
-        self.config.static_signals.iter().any(|p| p == rel || p == &sig.name)
+        let rel = sig
+            .name
+            .split_once('.')
+            .map(|(_, r)| r)
+            .unwrap_or(&sig.name);
+        self.config
+            .static_signals
+            .iter()
+            .any(|p| p == rel || p == &sig.name)
     }
 
     /// `top.u_a.sig` → the span and file of the signal's declaration.
@@ -174,7 +199,11 @@ pub fn analyze(models: &[FileModel], config: &Config) -> Analysis {
     let result = std::thread::scope(|s| {
         std::thread::Builder::new()
             .stack_size(1 << 30)
-            .spawn_scoped(s, || std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| analyze_here(models, config))))
+            .spawn_scoped(s, || {
+                std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| {
+                    analyze_here(models, config)
+                }))
+            })
             .map(|h| h.join())
     });
     match result {
@@ -186,7 +215,17 @@ pub fn analyze(models: &[FileModel], config: &Config) -> Analysis {
                 ..Analysis::default()
             };
             a.findings = models.iter().flat_map(finding::syntax_findings).collect();
-            let span = models.first().map(|m| crate::model::Span { file: m.path.clone(), line: 1, column: 1, end_line: 1, end_column: 1, ..Default::default() }).unwrap_or_default();
+            let span = models
+                .first()
+                .map(|m| crate::model::Span {
+                    file: m.path.clone(),
+                    line: 1,
+                    column: 1,
+                    end_line: 1,
+                    end_column: 1,
+                    ..Default::default()
+                })
+                .unwrap_or_default();
             a.findings.push(Finding::new(
                 "syntax-error",
                 Severity::Error,
@@ -234,17 +273,26 @@ fn analyze_here(models: &[FileModel], config: &Config) -> Analysis {
         .procs
         .iter()
         .flat_map(|p| p.assigns.iter())
-        .flat_map(|a| a.rhs.idents().into_iter().chain(a.guards.iter().flat_map(|g| g.cond.idents())))
+        .flat_map(|a| {
+            a.rhs
+                .idents()
+                .into_iter()
+                .chain(a.guards.iter().flat_map(|g| g.cond.idents()))
+        })
         .filter_map(|id| ctx.g.sig(id))
         .flat_map(|s| ctx.leaves(s).iter().copied().collect::<Vec<_>>())
         .collect();
     if config.design.unconstrained_inputs == UnconstrainedInputs::Ignore {
         for &s in &n.top_inputs {
             let port = &n.sigs[s].local;
-            if (reset_leaves.contains(&s) && !data_leaves.contains(&s)) || !data_leaves.contains(&s) {
+            if (reset_leaves.contains(&s) && !data_leaves.contains(&s)) || !data_leaves.contains(&s)
+            {
                 continue;
             }
-            if ctx.clock_nets.contains(&s) || config.inputs.contains_key(port.as_str()) || config.clocks.contains_key(port.as_str()) {
+            if ctx.clock_nets.contains(&s)
+                || config.inputs.contains_key(port.as_str())
+                || config.clocks.contains_key(port.as_str())
+            {
                 continue;
             }
             let mut f = Finding::new(
@@ -259,7 +307,11 @@ fn analyze_here(models: &[FileModel], config: &Config) -> Analysis {
     }
 
     // clocks
-    let mut roots: BTreeSet<String> = ctx.reg_clock.values().filter_map(|c| c.root.clone()).collect();
+    let mut roots: BTreeSet<String> = ctx
+        .reg_clock
+        .values()
+        .filter_map(|c| c.root.clone())
+        .collect();
     roots.extend(config.clocks.keys().cloned());
     for r in roots {
         let spec = config.clocks.get(&r);
@@ -296,7 +348,10 @@ fn analyze_here(models: &[FileModel], config: &Config) -> Analysis {
                     } else {
                         "logic"
                     };
-                    format!("{what} {}", name.split_once('.').map(|(_, r)| r).unwrap_or(name))
+                    format!(
+                        "{what} {}",
+                        name.split_once('.').map(|(_, r)| r).unwrap_or(name)
+                    )
                 }
                 _ => format!("logic {}", crate::model::render(e)),
             };
@@ -330,9 +385,15 @@ fn analyze_here(models: &[FileModel], config: &Config) -> Analysis {
         };
         let mut notes = Vec::new();
         let domains: Vec<String> = match kind {
-            SignalKind::Register => ctx.domain_of_reg(s).map(|d| vec![d.to_string()]).unwrap_or_default(),
+            SignalKind::Register => ctx
+                .domain_of_reg(s)
+                .map(|d| vec![d.to_string()])
+                .unwrap_or_default(),
             SignalKind::Clock => {
-                let t = ctx.trace_clock(&crate::model::Expr::Ident { name: sig.name.clone(), loc: Default::default() });
+                let t = ctx.trace_clock(&crate::model::Expr::Ident {
+                    name: sig.name.clone(),
+                    loc: Default::default(),
+                });
                 if let Some(r) = t.roots.iter().next() {
                     notes.push(format!("clock root: {r}"));
                 }
@@ -342,14 +403,24 @@ fn analyze_here(models: &[FileModel], config: &Config) -> Analysis {
                 if !t.gates.is_empty() {
                     notes.push("gated by plain logic".into());
                 }
-                let clocked = ctx.reg_clock.values().filter(|c| c.trace.nets.contains(&s)).count();
+                let clocked = ctx
+                    .reg_clock
+                    .values()
+                    .filter(|c| c.trace.nets.contains(&s))
+                    .count();
                 notes.push(format!("clocks {clocked} register(s)"));
-                t.roots.iter().map(|r| config.domain_of_clock(r).to_string()).collect()
+                t.roots
+                    .iter()
+                    .map(|r| config.domain_of_clock(r).to_string())
+                    .collect()
             }
             _ => ctx.domains(s).into_iter().collect(),
         };
         if let Some(st) = cdc.stages.get(&s) {
-            notes.push(format!("synchronizer stage {} of {} from {}", st.0, st.1, st.2));
+            notes.push(format!(
+                "synchronizer stage {} of {} from {}",
+                st.0, st.1, st.2
+            ));
         }
         out.signals.push(SignalInfo {
             instance: n.insts[sig.inst].path.clone(),
@@ -364,8 +435,15 @@ fn analyze_here(models: &[FileModel], config: &Config) -> Analysis {
 
     out.findings = crate::cdc::waivers::apply(findings, models, config);
     // a crossing whose finding is waived shows as waived in the tables and the map
-    for c in out.crossings.iter_mut().filter(|c| c.status == crate::report::CrossingStatus::Unsafe) {
-        let waived = out.findings.iter().any(|f| f.waived && f.span.file == c.span.file && f.span.line == c.span.line);
+    for c in out
+        .crossings
+        .iter_mut()
+        .filter(|c| c.status == crate::report::CrossingStatus::Unsafe)
+    {
+        let waived = out
+            .findings
+            .iter()
+            .any(|f| f.waived && f.span.file == c.span.file && f.span.line == c.span.line);
         if waived {
             c.status = crate::report::CrossingStatus::Waived;
         }

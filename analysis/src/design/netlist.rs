@@ -94,7 +94,9 @@ impl<'m> ModuleIndex<'m> {
     }
 
     pub fn get(&self, name: &str) -> Option<&'m Module> {
-        self.by_name.get(name).map(|(f, m)| &self.files[*f].modules[*m])
+        self.by_name
+            .get(name)
+            .map(|(f, m)| &self.files[*f].modules[*m])
     }
 
     /// `[design] top`, else modules never instantiated that are not testbenches.
@@ -118,7 +120,10 @@ impl<'m> ModuleIndex<'m> {
         let mut tops: Vec<&str> = Vec::new();
         for f in self.files {
             for m in &f.modules {
-                if m.kind == ModuleKind::Module && !used.contains(m.name.as_str()) && !m.is_testbench() {
+                if m.kind == ModuleKind::Module
+                    && !used.contains(m.name.as_str())
+                    && !m.is_testbench()
+                {
                     tops.push(m.name.as_str());
                 }
             }
@@ -139,7 +144,9 @@ struct Scope {
 pub fn elaborate(index: &ModuleIndex, config: &Config, tops: &[&str]) -> Netlist {
     let mut n = Netlist::default();
     for t in tops {
-        let Some(&(fi, mi)) = index.by_name.get(t) else { continue };
+        let Some(&(fi, mi)) = index.by_name.get(t) else {
+            continue;
+        };
         let m = &index.files[fi].modules[mi];
         let inst = n.insts.len();
         n.insts.push(Inst {
@@ -205,18 +212,45 @@ fn elab_module(
         return;
     }
     let path = n.insts[inst].path.clone();
-    let mut scope = Scope { prefixes: vec![format!("{path}.")], env };
+    let mut scope = Scope {
+        prefixes: vec![format!("{path}.")],
+        env,
+    };
     // ports first (ANSI and merged non-ANSI), then body declarations
     for p in &m.ports {
-        let w = if p.type_name.is_some() && p.packed.is_empty() { None } else { eval::width(&p.packed, &scope.env) };
-        add_sig(n, inst, &format!("{path}.{}", p.name), &p.name, w, eval::lsb(&p.packed, &scope.env), !p.unpacked.is_empty(), p.direction, &p.span);
+        let w = if p.type_name.is_some() && p.packed.is_empty() {
+            None
+        } else {
+            eval::width(&p.packed, &scope.env)
+        };
+        add_sig(
+            n,
+            inst,
+            &format!("{path}.{}", p.name),
+            &p.name,
+            w,
+            eval::lsb(&p.packed, &scope.env),
+            !p.unpacked.is_empty(),
+            p.direction,
+            &p.span,
+        );
     }
     declare(n, inst, &m.items, &mut scope);
     flatten_items(index, config, n, inst, &m.items, &mut scope, file, depth);
 }
 
 #[allow(clippy::too_many_arguments)]
-fn add_sig(n: &mut Netlist, inst: usize, name: &str, local: &str, width: Option<u32>, lsb: i64, memory: bool, port: Option<Direction>, span: &Span) -> SigId {
+fn add_sig(
+    n: &mut Netlist,
+    inst: usize,
+    name: &str,
+    local: &str,
+    width: Option<u32>,
+    lsb: i64,
+    memory: bool,
+    port: Option<Direction>,
+    span: &Span,
+) -> SigId {
     if let Some(&s) = n.by_name.get(name) {
         let sig = &mut n.sigs[s];
         if sig.width.is_none() {
@@ -226,14 +260,25 @@ fn add_sig(n: &mut Netlist, inst: usize, name: &str, local: &str, width: Option<
         return s;
     }
     let id = n.sigs.len();
-    n.sigs.push(Sig { name: name.to_string(), local: local.to_string(), inst, width, lsb, memory, port, span: span.clone() });
+    n.sigs.push(Sig {
+        name: name.to_string(),
+        local: local.to_string(),
+        inst,
+        width,
+        lsb,
+        memory,
+        port,
+        span: span.clone(),
+    });
     n.by_name.insert(name.to_string(), id);
     id
 }
 
 /// Unroll a generate-for under `scope`, calling `f` for each iteration's scope.
 fn unroll(g: &GenerateFor, scope: &Scope, mut f: impl FnMut(Scope)) {
-    let Some(mut v) = eval::eval(&g.init, &scope.env) else { return };
+    let Some(mut v) = eval::eval(&g.init, &scope.env) else {
+        return;
+    };
     let mut iters = 0;
     loop {
         let mut env = scope.env.clone();
@@ -248,7 +293,10 @@ fn unroll(g: &GenerateFor, scope: &Scope, mut f: impl FnMut(Scope)) {
         let label = g.label.clone().unwrap_or_else(|| "genblk".into());
         let mut prefixes = vec![format!("{}{label}[{v}].", scope.prefixes[0])];
         prefixes.extend(scope.prefixes.iter().cloned());
-        f(Scope { prefixes, env: env.clone() });
+        f(Scope {
+            prefixes,
+            env: env.clone(),
+        });
         match eval::eval(&g.step, &env) {
             Some(nv) if nv != v => v = nv,
             _ => break,
@@ -275,9 +323,15 @@ fn sub_scope(scope: &Scope, label: Option<String>) -> Scope {
         Some(l) => {
             let mut prefixes = vec![format!("{}{l}.", scope.prefixes[0])];
             prefixes.extend(scope.prefixes.iter().cloned());
-            Scope { prefixes, env: scope.env.clone() }
+            Scope {
+                prefixes,
+                env: scope.env.clone(),
+            }
         }
-        None => Scope { prefixes: scope.prefixes.clone(), env: scope.env.clone() },
+        None => Scope {
+            prefixes: scope.prefixes.clone(),
+            env: scope.env.clone(),
+        },
     }
 }
 
@@ -285,9 +339,23 @@ fn declare(n: &mut Netlist, inst: usize, items: &[Item], scope: &mut Scope) {
     for it in items {
         match &it.kind {
             ItemKind::Decl(d) if d.kind != DeclKind::Genvar => {
-                let w = if d.type_name.is_some() && d.packed.is_empty() { None } else { eval::width(&d.packed, &scope.env) };
+                let w = if d.type_name.is_some() && d.packed.is_empty() {
+                    None
+                } else {
+                    eval::width(&d.packed, &scope.env)
+                };
                 let name = format!("{}{}", scope.prefixes[0], d.name);
-                add_sig(n, inst, &name, &d.name, w, eval::lsb(&d.packed, &scope.env), !d.unpacked.is_empty(), None, &d.span);
+                add_sig(
+                    n,
+                    inst,
+                    &name,
+                    &d.name,
+                    w,
+                    eval::lsb(&d.packed, &scope.env),
+                    !d.unpacked.is_empty(),
+                    None,
+                    &d.span,
+                );
             }
             ItemKind::Param(p) => {
                 if !scope.env.contains_key(&p.name) {
@@ -296,7 +364,9 @@ fn declare(n: &mut Netlist, inst: usize, items: &[Item], scope: &mut Scope) {
                     }
                 }
             }
-            ItemKind::GenerateFor(g) => unroll(g, scope, |mut s| declare(n, inst, &g.items, &mut s)),
+            ItemKind::GenerateFor(g) => {
+                unroll(g, scope, |mut s| declare(n, inst, &g.items, &mut s))
+            }
             ItemKind::GenerateIf(g) => {
                 if let Some((items, label)) = choose(g, scope) {
                     let mut s = sub_scope(scope, label);
@@ -309,18 +379,36 @@ fn declare(n: &mut Netlist, inst: usize, items: &[Item], scope: &mut Scope) {
 }
 
 /// Resolve names in an expression to flat signal names; parameters become constants.
-fn resolve(n: &mut Netlist, inst: usize, e: &Expr, scope: &Scope, locals: &[String], implicit: bool) -> Expr {
+fn resolve(
+    n: &mut Netlist,
+    inst: usize,
+    e: &Expr,
+    scope: &Scope,
+    locals: &[String],
+    implicit: bool,
+) -> Expr {
     let mut out = e.clone();
     resolve_in_place(n, inst, &mut out, scope, locals, implicit);
     out
 }
 
-fn resolve_in_place(n: &mut Netlist, inst: usize, e: &mut Expr, scope: &Scope, locals: &[String], implicit: bool) {
+fn resolve_in_place(
+    n: &mut Netlist,
+    inst: usize,
+    e: &mut Expr,
+    scope: &Scope,
+    locals: &[String],
+    implicit: bool,
+) {
     match e {
         Expr::Ident { name, loc } => {
             if let Some(v) = scope.env.get(name.as_str()) {
                 let t = v.to_string();
-                *e = Expr::Const { text: t, value: u64::try_from(*v).ok(), width: None };
+                *e = Expr::Const {
+                    text: t,
+                    value: u64::try_from(*v).ok(),
+                    width: None,
+                };
                 return;
             }
             if locals.contains(name) {
@@ -339,14 +427,23 @@ fn resolve_in_place(n: &mut Netlist, inst: usize, e: &mut Expr, scope: &Scope, l
                 return; // package constant we could not evaluate: not a signal
             }
             if implicit && !name.contains('.') {
-                let full = format!("{}{name}", scope.prefixes.last().cloned().unwrap_or_default());
-                let span = Span { line: 0, ..Default::default() };
+                let full = format!(
+                    "{}{name}",
+                    scope.prefixes.last().cloned().unwrap_or_default()
+                );
+                let span = Span {
+                    line: 0,
+                    ..Default::default()
+                };
                 add_sig(n, inst, &full, name, Some(1), 0, false, None, &span);
                 let _ = loc;
                 *name = full;
             } else {
                 // hierarchical reference or unknown: keep it path-qualified
-                *name = format!("{}{name}", scope.prefixes.last().cloned().unwrap_or_default());
+                *name = format!(
+                    "{}{name}",
+                    scope.prefixes.last().cloned().unwrap_or_default()
+                );
             }
         }
         Expr::Select { base, sel } => {
@@ -374,13 +471,21 @@ fn resolve_in_place(n: &mut Netlist, inst: usize, e: &mut Expr, scope: &Scope, l
             resolve_in_place(n, inst, then, scope, locals, false);
             resolve_in_place(n, inst, other, scope, locals, false);
         }
-        Expr::Concat { parts } => parts.iter_mut().for_each(|p| resolve_in_place(n, inst, p, scope, locals, implicit)),
+        Expr::Concat { parts } => parts
+            .iter_mut()
+            .for_each(|p| resolve_in_place(n, inst, p, scope, locals, implicit)),
         Expr::Repl { count, parts } => {
             resolve_in_place(n, inst, count, scope, locals, false);
-            parts.iter_mut().for_each(|p| resolve_in_place(n, inst, p, scope, locals, false));
+            parts
+                .iter_mut()
+                .for_each(|p| resolve_in_place(n, inst, p, scope, locals, false));
         }
-        Expr::Call { args, .. } => args.iter_mut().for_each(|p| resolve_in_place(n, inst, p, scope, locals, false)),
-        Expr::Opaque { reads, .. } => reads.iter_mut().for_each(|p| resolve_in_place(n, inst, p, scope, locals, false)),
+        Expr::Call { args, .. } => args
+            .iter_mut()
+            .for_each(|p| resolve_in_place(n, inst, p, scope, locals, false)),
+        Expr::Opaque { reads, .. } => reads
+            .iter_mut()
+            .for_each(|p| resolve_in_place(n, inst, p, scope, locals, false)),
     }
 }
 
@@ -399,21 +504,54 @@ fn flatten_items(
         match &it.kind {
             ItemKind::Decl(d) => {
                 if let (Some(init), DeclKind::Net) = (&d.init, d.kind) {
-                    let target = resolve(n, inst, &Expr::Ident { name: d.name.clone(), loc: Loc::default() }, scope, &[], true);
+                    let target = resolve(
+                        n,
+                        inst,
+                        &Expr::Ident {
+                            name: d.name.clone(),
+                            loc: Loc::default(),
+                        },
+                        scope,
+                        &[],
+                        true,
+                    );
                     let rhs = resolve(n, inst, init, scope, &[], false);
-                    n.combs.push(Comb { inst, target, rhs, span: d.span.clone(), port: false });
+                    n.combs.push(Comb {
+                        inst,
+                        target,
+                        rhs,
+                        span: d.span.clone(),
+                        port: false,
+                    });
                 }
             }
             ItemKind::Assign(a) => {
                 let target = resolve(n, inst, &a.target, scope, &[], true);
                 let rhs = resolve(n, inst, &a.rhs, scope, &[], false);
-                n.combs.push(Comb { inst, target, rhs, span: a.span.clone(), port: false });
+                n.combs.push(Comb {
+                    inst,
+                    target,
+                    rhs,
+                    span: a.span.clone(),
+                    port: false,
+                });
             }
             ItemKind::Process(p) => {
                 let locals = &p.locals;
-                let clock = p.clock.as_ref().map(|c| (resolve(n, inst, &c.signal, scope, locals, false), c.edge));
-                let async_controls =
-                    p.async_controls.iter().map(|a| (resolve(n, inst, &a.signal, scope, locals, false), a.active_high)).collect();
+                let clock = p
+                    .clock
+                    .as_ref()
+                    .map(|c| (resolve(n, inst, &c.signal, scope, locals, false), c.edge));
+                let async_controls = p
+                    .async_controls
+                    .iter()
+                    .map(|a| {
+                        (
+                            resolve(n, inst, &a.signal, scope, locals, false),
+                            a.active_high,
+                        )
+                    })
+                    .collect();
                 let assigns = p
                     .assigns
                     .iter()
@@ -423,7 +561,10 @@ fn flatten_items(
                         guards: a
                             .guards
                             .iter()
-                            .map(|g| Guard { cond: resolve(n, inst, &g.cond, scope, locals, false), polarity: g.polarity })
+                            .map(|g| Guard {
+                                cond: resolve(n, inst, &g.cond, scope, locals, false),
+                                polarity: g.polarity,
+                            })
                             .collect(),
                         in_reset: a.in_reset,
                         span: a.span.clone(),
@@ -431,7 +572,14 @@ fn flatten_items(
                     .collect();
                 // a process whose clock is a level list (`always @(a or b)`) is combinational
                 let clock = clock.filter(|(_, e)| *e != Edge::Any);
-                n.procs.push(Proc { inst, clock, async_controls, assigns, span: p.span.clone(), file });
+                n.procs.push(Proc {
+                    inst,
+                    clock,
+                    async_controls,
+                    assigns,
+                    span: p.span.clone(),
+                    file,
+                });
             }
             ItemKind::Instance(i) => instantiate(index, config, n, inst, i, scope, depth),
             ItemKind::GenerateFor(g) => {
@@ -452,10 +600,22 @@ fn flatten_items(
     }
 }
 
-fn instantiate(index: &ModuleIndex, config: &Config, n: &mut Netlist, parent: usize, i: &Instance, scope: &Scope, depth: usize) {
+fn instantiate(
+    index: &ModuleIndex,
+    config: &Config,
+    n: &mut Netlist,
+    parent: usize,
+    i: &Instance,
+    scope: &Scope,
+    depth: usize,
+) {
     let path = format!("{}{}", scope.prefixes[0], i.name);
     let cell = config.cells.get(&i.module).cloned();
-    let def = if cell.is_some() { None } else { index.by_name.get(i.module.as_str()).copied() };
+    let def = if cell.is_some() {
+        None
+    } else {
+        index.by_name.get(i.module.as_str()).copied()
+    };
     let child = n.insts.len();
     n.insts.push(Inst {
         path: path.clone(),
@@ -484,7 +644,13 @@ fn instantiate(index: &ModuleIndex, config: &Config, n: &mut Netlist, parent: us
         if let Some(m) = def_module {
             for p in &m.ports {
                 if !conns.iter().any(|(n, _)| n == &p.name) {
-                    conns.push((p.name.clone(), Some(Expr::Ident { name: p.name.clone(), loc: Loc::default() })));
+                    conns.push((
+                        p.name.clone(),
+                        Some(Expr::Ident {
+                            name: p.name.clone(),
+                            loc: Loc::default(),
+                        }),
+                    ));
                 }
             }
         }
@@ -497,15 +663,35 @@ fn instantiate(index: &ModuleIndex, config: &Config, n: &mut Netlist, parent: us
             elab_module(index, config, n, child, m, fi, env, depth + 1);
             for (port, expr) in conns {
                 let Some(expr) = expr else { continue };
-                let dir = m.ports.iter().find(|p| p.name == port).and_then(|p| p.direction).unwrap_or(Direction::Input);
-                let child_sig = Expr::Ident { name: format!("{path}.{port}"), loc: Loc::default() };
+                let dir = m
+                    .ports
+                    .iter()
+                    .find(|p| p.name == port)
+                    .and_then(|p| p.direction)
+                    .unwrap_or(Direction::Input);
+                let child_sig = Expr::Ident {
+                    name: format!("{path}.{port}"),
+                    loc: Loc::default(),
+                };
                 if !n.by_name.contains_key(&format!("{path}.{port}")) {
                     continue;
                 }
                 let parent_e = resolve(n, parent, &expr, scope, &[], true);
                 let c = match dir {
-                    Direction::Output => Comb { inst: parent, target: parent_e, rhs: child_sig, span: span.clone(), port: true },
-                    _ => Comb { inst: child, target: child_sig, rhs: parent_e, span: span.clone(), port: true },
+                    Direction::Output => Comb {
+                        inst: parent,
+                        target: parent_e,
+                        rhs: child_sig,
+                        span: span.clone(),
+                        port: true,
+                    },
+                    _ => Comb {
+                        inst: child,
+                        target: child_sig,
+                        rhs: parent_e,
+                        span: span.clone(),
+                        port: true,
+                    },
                 };
                 n.combs.push(c);
             }
@@ -527,72 +713,178 @@ fn instantiate(index: &ModuleIndex, config: &Config, n: &mut Netlist, parent: us
 }
 
 /// Model a `[cells]` instance by what its pins mean.
-fn cell_netlist(n: &mut Netlist, parent: usize, child: usize, cell: &Cell, conns: Vec<(String, Option<Expr>)>, scope: &Scope, span: &Span) {
+fn cell_netlist(
+    n: &mut Netlist,
+    parent: usize,
+    child: usize,
+    cell: &Cell,
+    conns: Vec<(String, Option<Expr>)>,
+    scope: &Scope,
+    span: &Span,
+) {
     let get = |n: &mut Netlist, pin: &str| -> Option<Expr> {
-        conns.iter().find(|(p, _)| p == pin).and_then(|(_, e)| e.clone()).map(|e| resolve(n, parent, &e, scope, &[], true))
+        conns
+            .iter()
+            .find(|(p, _)| p == pin)
+            .and_then(|(_, e)| e.clone())
+            .map(|e| resolve(n, parent, &e, scope, &[], true))
     };
-    let call = |name: &str, args: Vec<Expr>| Expr::Call { name: name.to_string(), args };
+    let call = |name: &str, args: Vec<Expr>| Expr::Call {
+        name: name.to_string(),
+        args,
+    };
     match cell {
         Cell::ClockBuffer { input, output } => {
             if let (Some(o), Some(i)) = (get(n, output), get(n, input)) {
-                n.combs.push(Comb { inst: parent, target: o, rhs: i, span: span.clone(), port: true });
+                n.combs.push(Comb {
+                    inst: parent,
+                    target: o,
+                    rhs: i,
+                    span: span.clone(),
+                    port: true,
+                });
             }
         }
-        Cell::ClockGate { clock, enable, output } => {
+        Cell::ClockGate {
+            clock,
+            enable,
+            output,
+        } => {
             if let (Some(o), Some(c), Some(e)) = (get(n, output), get(n, clock), get(n, enable)) {
-                n.combs.push(Comb { inst: parent, target: o, rhs: call("$seam_clock_gate", vec![c, e]), span: span.clone(), port: true });
+                n.combs.push(Comb {
+                    inst: parent,
+                    target: o,
+                    rhs: call("$seam_clock_gate", vec![c, e]),
+                    span: span.clone(),
+                    port: true,
+                });
             }
         }
-        Cell::ClockMux { inputs, select, output } => {
+        Cell::ClockMux {
+            inputs,
+            select,
+            output,
+        } => {
             if let Some(o) = get(n, output) {
-                let mut args = vec![get(n, select).unwrap_or(Expr::Const { text: "0".into(), value: Some(0), width: None })];
+                let mut args = vec![get(n, select).unwrap_or(Expr::Const {
+                    text: "0".into(),
+                    value: Some(0),
+                    width: None,
+                })];
                 for i in inputs {
                     if let Some(e) = get(n, i) {
                         args.push(e);
                     }
                 }
-                n.combs.push(Comb { inst: parent, target: o, rhs: call("$seam_clock_mux", args), span: span.clone(), port: true });
+                n.combs.push(Comb {
+                    inst: parent,
+                    target: o,
+                    rhs: call("$seam_clock_mux", args),
+                    span: span.clone(),
+                    port: true,
+                });
             }
         }
         Cell::ClockSource { outputs } => {
             for pin in outputs {
                 if let Some(o) = get(n, pin) {
                     let root = format!("{}.{pin}", n.insts[child].path);
-                    n.combs.push(Comb { inst: parent, target: o, rhs: call("$seam_clock_source", vec![Expr::Const { text: root, value: None, width: None }]), span: span.clone(), port: true });
+                    n.combs.push(Comb {
+                        inst: parent,
+                        target: o,
+                        rhs: call(
+                            "$seam_clock_source",
+                            vec![Expr::Const {
+                                text: root,
+                                value: None,
+                                width: None,
+                            }],
+                        ),
+                        span: span.clone(),
+                        port: true,
+                    });
                 }
             }
         }
-        Cell::Synchronizer { clock, input, output, stages } => {
+        Cell::Synchronizer {
+            clock,
+            input,
+            output,
+            stages,
+        } => {
             // modelled as the chain it stands for: N flops on the cell's clock
             if let (Some(o), Some(c), Some(i)) = (get(n, output), get(n, clock), get(n, input)) {
-                let width = o.base_name().and_then(|b| n.by_name.get(b)).and_then(|s| n.sigs[*s].width);
+                let width = o
+                    .base_name()
+                    .and_then(|b| n.by_name.get(b))
+                    .and_then(|s| n.sigs[*s].width);
                 let path = n.insts[child].path.clone();
                 let mut prev = i;
                 for k in 1..=(*stages).max(1) {
                     let name = format!("{path}.stage{k}");
-                    add_sig(n, child, &name, &format!("stage{k}"), width, 0, false, None, span);
-                    let q = Expr::Ident { name, loc: Loc::default() };
+                    add_sig(
+                        n,
+                        child,
+                        &name,
+                        &format!("stage{k}"),
+                        width,
+                        0,
+                        false,
+                        None,
+                        span,
+                    );
+                    let q = Expr::Ident {
+                        name,
+                        loc: Loc::default(),
+                    };
                     n.procs.push(Proc {
                         inst: child,
                         clock: Some((c.clone(), Edge::Posedge)),
                         async_controls: vec![],
-                        assigns: vec![FAssign { target: q.clone(), rhs: prev, guards: vec![], in_reset: false, span: span.clone() }],
+                        assigns: vec![FAssign {
+                            target: q.clone(),
+                            rhs: prev,
+                            guards: vec![],
+                            in_reset: false,
+                            span: span.clone(),
+                        }],
                         span: span.clone(),
                         file: 0,
                     });
                     prev = q;
                 }
-                n.combs.push(Comb { inst: parent, target: o, rhs: prev, span: span.clone(), port: true });
+                n.combs.push(Comb {
+                    inst: parent,
+                    target: o,
+                    rhs: prev,
+                    span: span.clone(),
+                    port: true,
+                });
             }
         }
-        Cell::Flop { clock, input, output, reset } => {
+        Cell::Flop {
+            clock,
+            input,
+            output,
+            reset,
+        } => {
             if let (Some(o), Some(c), Some(i)) = (get(n, output), get(n, clock), get(n, input)) {
-                let async_controls = reset.as_ref().and_then(|r| get(n, r)).map(|r| vec![(r, false)]).unwrap_or_default();
+                let async_controls = reset
+                    .as_ref()
+                    .and_then(|r| get(n, r))
+                    .map(|r| vec![(r, false)])
+                    .unwrap_or_default();
                 n.procs.push(Proc {
                     inst: parent,
                     clock: Some((c, Edge::Posedge)),
                     async_controls,
-                    assigns: vec![FAssign { target: o, rhs: i, guards: vec![], in_reset: false, span: span.clone() }],
+                    assigns: vec![FAssign {
+                        target: o,
+                        rhs: i,
+                        guards: vec![],
+                        in_reset: false,
+                        span: span.clone(),
+                    }],
                     span: span.clone(),
                     file: 0,
                 });

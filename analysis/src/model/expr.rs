@@ -18,20 +18,52 @@ pub struct Loc {
 #[serde(tag = "kind", rename_all = "snake_case")]
 pub enum Expr {
     /// A (possibly hierarchical, dotted) name.
-    Ident { name: String, loc: Loc },
+    Ident {
+        name: String,
+        loc: Loc,
+    },
     /// `base[sel]`, `base[msb:lsb]`, `base[i +: w]`, `base[i -: w]`.
-    Select { base: Box<Expr>, sel: Box<Select> },
+    Select {
+        base: Box<Expr>,
+        sel: Box<Select>,
+    },
     /// A literal: `4'b1010`, `12`, `'0`, `"text"`, `1.5`.
-    Const { text: String, value: Option<u64>, width: Option<u32> },
-    Unary { op: String, arg: Box<Expr> },
-    Binary { op: String, lhs: Box<Expr>, rhs: Box<Expr> },
-    Ternary { cond: Box<Expr>, then: Box<Expr>, other: Box<Expr> },
-    Concat { parts: Vec<Expr> },
-    Repl { count: Box<Expr>, parts: Vec<Expr> },
+    Const {
+        text: String,
+        value: Option<u64>,
+        width: Option<u32>,
+    },
+    Unary {
+        op: String,
+        arg: Box<Expr>,
+    },
+    Binary {
+        op: String,
+        lhs: Box<Expr>,
+        rhs: Box<Expr>,
+    },
+    Ternary {
+        cond: Box<Expr>,
+        then: Box<Expr>,
+        other: Box<Expr>,
+    },
+    Concat {
+        parts: Vec<Expr>,
+    },
+    Repl {
+        count: Box<Expr>,
+        parts: Vec<Expr>,
+    },
     /// Function or system-function call, kept opaque: its value depends on all its args.
-    Call { name: String, args: Vec<Expr> },
+    Call {
+        name: String,
+        args: Vec<Expr>,
+    },
     /// Something outside the IR (casts, streaming, patterns...): keeps the names it reads.
-    Opaque { text: String, reads: Vec<Expr> },
+    Opaque {
+        text: String,
+        reads: Vec<Expr>,
+    },
 }
 
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
@@ -174,9 +206,9 @@ enum Tok {
 
 const OPS: &[&str] = &[
     "<<<=", ">>>=", "===", "!==", "==?", "!=?", "<<<", ">>>", "<->", "->", "<<=", ">>=", "**",
-    "==", "!=", "<=", ">=", "&&", "||", "<<", ">>", "~&", "~|", "~^", "^~", "+:", "-:", "::",
-    "'{", "(", ")", "[", "]", "{", "}", ",", "?", ":", "+", "-", "*", "/", "%", "&", "|",
-    "^", "~", "!", "<", ">", ".", "'", "=", "#", "@", "$", ";",
+    "==", "!=", "<=", ">=", "&&", "||", "<<", ">>", "~&", "~|", "~^", "^~", "+:", "-:", "::", "'{",
+    "(", ")", "[", "]", "{", "}", ",", "?", ":", "+", "-", "*", "/", "%", "&", "|", "^", "~", "!",
+    "<", ">", ".", "'", "=", "#", "@", "$", ";",
 ];
 
 fn lex(src: &str) -> Vec<(Tok, Loc)> {
@@ -268,7 +300,10 @@ fn lex(src: &str) -> Vec<(Tok, Loc)> {
 }
 
 fn loc(s: usize, e: usize) -> Loc {
-    Loc { start: s as u32, end: e as u32 }
+    Loc {
+        start: s as u32,
+        end: e as u32,
+    }
 }
 
 fn is_based(b: &[u8], i: usize) -> bool {
@@ -276,7 +311,10 @@ fn is_based(b: &[u8], i: usize) -> bool {
     match b.get(i + 1) {
         Some(c) => {
             let c = c.to_ascii_lowercase();
-            matches!(c, b'b' | b'o' | b'd' | b'h' | b's' | b'0' | b'1' | b'x' | b'z')
+            matches!(
+                c,
+                b'b' | b'o' | b'd' | b'h' | b's' | b'0' | b'1' | b'x' | b'z'
+            )
         }
         None => false,
     }
@@ -344,7 +382,9 @@ pub fn literal_value(text: &str) -> (Option<u64>, Option<u32>) {
             Some('d') => (10, &rest[1..]),
             Some('h') => (16, &rest[1..]),
             Some('0') if rest.len() == 1 => return (Some(0), width),
-            Some('1') if rest.len() == 1 => return (if width.is_none() { None } else { Some(1) }, width),
+            Some('1') if rest.len() == 1 => {
+                return (if width.is_none() { None } else { Some(1) }, width)
+            }
             _ => return (None, width),
         };
         (u64::from_str_radix(digits, radix).ok(), width)
@@ -369,7 +409,12 @@ const MAX_DEPTH: u32 = 200;
 /// with every identifier it mentions.
 pub fn parse_expr(src: &str) -> Expr {
     let toks = lex(src);
-    let mut p = Parser { toks, pos: 0, src, depth: 0 };
+    let mut p = Parser {
+        toks,
+        pos: 0,
+        src,
+        depth: 0,
+    };
     match p.expr() {
         Some(e) if p.pos == p.toks.len() => e,
         _ => opaque(src),
@@ -389,18 +434,46 @@ pub fn opaque(src: &str) -> Expr {
             if i > 0 && matches!(toks[i - 1].0, Tok::Op(".")) {
                 continue;
             }
-            reads.push(Expr::Ident { name: name.clone(), loc: *l });
+            reads.push(Expr::Ident {
+                name: name.clone(),
+                loc: *l,
+            });
         }
     }
-    Expr::Opaque { text: src.trim().to_string(), reads }
+    Expr::Opaque {
+        text: src.trim().to_string(),
+        reads,
+    }
 }
 
 fn is_keyword(s: &str) -> bool {
     matches!(
         s,
-        "posedge" | "negedge" | "edge" | "or" | "and" | "iff" | "inside" | "dist" | "with"
-            | "signed" | "unsigned" | "logic" | "bit" | "reg" | "int" | "integer" | "type"
-            | "const" | "null" | "this" | "super" | "default" | "byte" | "shortint" | "longint"
+        "posedge"
+            | "negedge"
+            | "edge"
+            | "or"
+            | "and"
+            | "iff"
+            | "inside"
+            | "dist"
+            | "with"
+            | "signed"
+            | "unsigned"
+            | "logic"
+            | "bit"
+            | "reg"
+            | "int"
+            | "integer"
+            | "type"
+            | "const"
+            | "null"
+            | "this"
+            | "super"
+            | "default"
+            | "byte"
+            | "shortint"
+            | "longint"
     )
 }
 
@@ -458,7 +531,11 @@ impl<'s> Parser<'s> {
                 return None;
             }
             let other = self.expr()?;
-            return Some(Expr::Ternary { cond: Box::new(cond), then: Box::new(then), other: Box::new(other) });
+            return Some(Expr::Ternary {
+                cond: Box::new(cond),
+                then: Box::new(then),
+                other: Box::new(other),
+            });
         }
         Some(cond)
     }
@@ -481,14 +558,21 @@ impl<'s> Parser<'s> {
             // `**` is right-associative; the rest are left-associative
             let next = if op == "**" { prec } else { prec + 1 };
             let rhs = self.binary(next)?;
-            lhs = Expr::Binary { op: op.to_string(), lhs: Box::new(lhs), rhs: Box::new(rhs) };
+            lhs = Expr::Binary {
+                op: op.to_string(),
+                lhs: Box::new(lhs),
+                rhs: Box::new(rhs),
+            };
         }
         Some(lhs)
     }
 
     fn unary(&mut self) -> Option<Expr> {
         if let Some(op) = self.peek_op() {
-            if matches!(op, "!" | "~" | "-" | "+" | "&" | "|" | "^" | "~&" | "~|" | "~^" | "^~") {
+            if matches!(
+                op,
+                "!" | "~" | "-" | "+" | "&" | "|" | "^" | "~&" | "~|" | "~^" | "^~"
+            ) {
                 self.pos += 1;
                 self.depth += 1;
                 if self.depth > MAX_DEPTH {
@@ -496,7 +580,10 @@ impl<'s> Parser<'s> {
                 }
                 let arg = self.unary()?;
                 self.depth -= 1;
-                return Some(Expr::Unary { op: op.to_string(), arg: Box::new(arg) });
+                return Some(Expr::Unary {
+                    op: op.to_string(),
+                    arg: Box::new(arg),
+                });
             }
         }
         self.postfix()
@@ -511,16 +598,25 @@ impl<'s> Parser<'s> {
                 let b = self.expr()?;
                 Select::Part { msb: a, lsb: b }
             } else if self.eat("+:") {
-                Select::Up { base: a, width: self.expr()? }
+                Select::Up {
+                    base: a,
+                    width: self.expr()?,
+                }
             } else if self.eat("-:") {
-                Select::Down { base: a, width: self.expr()? }
+                Select::Down {
+                    base: a,
+                    width: self.expr()?,
+                }
             } else {
                 Select::Bit { index: a }
             };
             if !self.eat("]") {
                 return None;
             }
-            e = Expr::Select { base: Box::new(e), sel: Box::new(sel) };
+            e = Expr::Select {
+                base: Box::new(e),
+                sel: Box::new(sel),
+            };
             // member access after a select (`a[0].b`) is outside the IR
             if self.peek_op() == Some(".") {
                 return None;
@@ -539,7 +635,11 @@ impl<'s> Parser<'s> {
             }
             Tok::Str(text) => {
                 self.pos += 1;
-                Some(Expr::Const { text, value: None, width: None })
+                Some(Expr::Const {
+                    text,
+                    value: None,
+                    width: None,
+                })
             }
             Tok::Ident(name) => {
                 if is_keyword(&name) {
@@ -553,7 +653,8 @@ impl<'s> Parser<'s> {
                     match self.peek_op() {
                         Some(".") | Some("::") => {
                             let sep = self.peek_op().unwrap_or(".");
-                            if let Some((Tok::Ident(n), nl)) = self.toks.get(self.pos + 1).cloned() {
+                            if let Some((Tok::Ident(n), nl)) = self.toks.get(self.pos + 1).cloned()
+                            {
                                 self.pos += 2;
                                 full.push_str(sep);
                                 full.push_str(&n);
@@ -586,9 +687,18 @@ impl<'s> Parser<'s> {
                     // cast: type'(expr)
                     self.pos += 1;
                     let inner = self.paren()?;
-                    return Some(Expr::Call { name: format!("{full}'"), args: vec![inner] });
+                    return Some(Expr::Call {
+                        name: format!("{full}'"),
+                        args: vec![inner],
+                    });
                 }
-                Some(Expr::Ident { name: full, loc: Loc { start: l.start, end } })
+                Some(Expr::Ident {
+                    name: full,
+                    loc: Loc {
+                        start: l.start,
+                        end,
+                    },
+                })
             }
             Tok::Op("(") => self.paren(),
             Tok::Op("{") => {
@@ -607,7 +717,10 @@ impl<'s> Parser<'s> {
                     if !self.eat("}") || !self.eat("}") {
                         return None;
                     }
-                    return Some(Expr::Repl { count: Box::new(first), parts });
+                    return Some(Expr::Repl {
+                        count: Box::new(first),
+                        parts,
+                    });
                 }
                 let mut parts = vec![first];
                 while self.eat(",") {
@@ -669,7 +782,9 @@ pub fn render(e: &Expr) -> String {
                 Select::Bit { index } => format!("{b}[{}]", render(index)),
                 Select::Part { msb, lsb } => format!("{b}[{}:{}]", render(msb), render(lsb)),
                 Select::Up { base: s, width } => format!("{b}[{} +: {}]", render(s), render(width)),
-                Select::Down { base: s, width } => format!("{b}[{} -: {}]", render(s), render(width)),
+                Select::Down { base: s, width } => {
+                    format!("{b}[{} -: {}]", render(s), render(width))
+                }
             }
         }
         Expr::Const { text, .. } => text.clone(),
@@ -679,7 +794,10 @@ pub fn render(e: &Expr) -> String {
             format!("{} ? {} : {}", wrap(cond), wrap(then), wrap(other))
         }
         Expr::Concat { parts } => {
-            format!("{{{}}}", parts.iter().map(render).collect::<Vec<_>>().join(", "))
+            format!(
+                "{{{}}}",
+                parts.iter().map(render).collect::<Vec<_>>().join(", ")
+            )
         }
         Expr::Repl { count, parts } => format!(
             "{{{}{{{}}}}}",
@@ -687,7 +805,10 @@ pub fn render(e: &Expr) -> String {
             parts.iter().map(render).collect::<Vec<_>>().join(", ")
         ),
         Expr::Call { name, args } => {
-            format!("{name}({})", args.iter().map(render).collect::<Vec<_>>().join(", "))
+            format!(
+                "{name}({})",
+                args.iter().map(render).collect::<Vec<_>>().join(", ")
+            )
         }
         Expr::Opaque { text, .. } => text.clone(),
     }
@@ -711,7 +832,9 @@ mod tests {
     #[test]
     fn concat_shift_is_structured() {
         let e = parse_expr("{s[0], d}");
-        let Expr::Concat { parts } = &e else { panic!("{e:?}") };
+        let Expr::Concat { parts } = &e else {
+            panic!("{e:?}")
+        };
         assert_eq!(parts.len(), 2);
         assert!(matches!(&parts[0], Expr::Select { sel, .. } if matches!(**sel, Select::Bit{..})));
         assert_eq!(id(&parts[0]), "s");
@@ -721,7 +844,9 @@ mod tests {
     #[test]
     fn gray_code_expression() {
         let e = parse_expr("b ^ (b >> 1)");
-        let Expr::Binary { op, lhs, rhs } = &e else { panic!() };
+        let Expr::Binary { op, lhs, rhs } = &e else {
+            panic!()
+        };
         assert_eq!(op, "^");
         assert_eq!(id(lhs), "b");
         assert!(matches!(&**rhs, Expr::Binary { op, .. } if op == ">>"));
@@ -730,7 +855,9 @@ mod tests {
     #[test]
     fn precedence_and_ternary() {
         let e = parse_expr("a & b | c ? x + 1 : y");
-        let Expr::Ternary { cond, then, .. } = &e else { panic!("{e:?}") };
+        let Expr::Ternary { cond, then, .. } = &e else {
+            panic!("{e:?}")
+        };
         assert!(matches!(&**cond, Expr::Binary { op, .. } if op == "|"));
         assert!(matches!(&**then, Expr::Binary { op, .. } if op == "+"));
     }
@@ -769,13 +896,21 @@ mod tests {
         let src = "a + bb[3]";
         let e = parse_expr(src);
         let ids = e.idents();
-        let Expr::Ident { loc, .. } = ids[1] else { panic!() };
+        let Expr::Ident { loc, .. } = ids[1] else {
+            panic!()
+        };
         assert_eq!(&src[loc.start as usize..loc.end as usize], "bb");
     }
 
     #[test]
     fn render_round_trips() {
-        for src in ["{s[0], d}", "b ^ (b >> 1)", "c + 1", "q[3:0]", "~q[2] & nxt[2]"] {
+        for src in [
+            "{s[0], d}",
+            "b ^ (b >> 1)",
+            "c + 1",
+            "q[3:0]",
+            "~q[2] & nxt[2]",
+        ] {
             let e = parse_expr(src);
             assert_eq!(parse_expr(&render(&e)), e, "{src}");
         }

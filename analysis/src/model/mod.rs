@@ -151,7 +151,9 @@ pub enum ItemKind {
     GenerateFor(GenerateFor),
     GenerateIf(GenerateIf),
     /// Constructs that do not count for domains (initial, assertions, final, clocking).
-    Ignored { what: String },
+    Ignored {
+        what: String,
+    },
 }
 
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize)]
@@ -319,11 +321,19 @@ impl Module {
 
     /// A testbench: no ports, or only `initial` code and no synthesizable processes.
     pub fn is_testbench(&self) -> bool {
-        let has_synth = self.all_items().iter().any(|i| {
-            matches!(i.kind, ItemKind::Process(_) | ItemKind::Assign(_))
-        });
-        self.ports.is_empty() && !self.items.iter().any(|i| matches!(i.kind, ItemKind::PortDecl(_)))
+        let has_synth = self
+            .all_items()
+            .iter()
+            .any(|i| matches!(i.kind, ItemKind::Process(_) | ItemKind::Assign(_)));
+        self.ports.is_empty()
+            && !self
+                .items
+                .iter()
+                .any(|i| matches!(i.kind, ItemKind::PortDecl(_)))
             || (!has_synth
-                && self.all_items().iter().any(|i| matches!(&i.kind, ItemKind::Ignored { what } if what == "initial")))
+                && self
+                    .all_items()
+                    .iter()
+                    .any(|i| matches!(&i.kind, ItemKind::Ignored { what } if what == "initial")))
     }
 }

@@ -90,7 +90,13 @@ struct Ctx {
 
 impl<'a> Extractor<'a> {
     pub fn new(path: &'a str, display: &'a str, text: &'a str, tree: &'a SyntaxTree) -> Self {
-        Extractor { path, display, text, tree, ix: LineIndex::new(text) }
+        Extractor {
+            path,
+            display,
+            text,
+            tree,
+            ix: LineIndex::new(text),
+        }
     }
 
     pub fn run(self) -> (Vec<Module>, Vec<String>) {
@@ -115,7 +121,9 @@ impl<'a> Extractor<'a> {
                     Walk::Skip
                 }
                 RefNode::PackageDeclaration(_) => {
-                    if let Some(id) = find_first(n, |c| matches!(c, RefNode::PackageIdentifier(_)).then(|| c.clone())) {
+                    if let Some(id) = find_first(n, |c| {
+                        matches!(c, RefNode::PackageIdentifier(_)).then(|| c.clone())
+                    }) {
                         packages.push(self.str(id).to_string());
                     }
                     Walk::Skip
@@ -160,7 +168,13 @@ impl<'a> Extractor<'a> {
     /// the nearest preceding text of this file (the macro use or the `include line).
     fn map(&self, pp: usize) -> usize {
         let here = Path::new(self.path);
-        let probe = |o: usize| self.tree.get_origin(&Locate { offset: o, line: 0, len: 1 });
+        let probe = |o: usize| {
+            self.tree.get_origin(&Locate {
+                offset: o,
+                line: 0,
+                len: 1,
+            })
+        };
         match probe(pp) {
             Some((p, o)) if p.as_path() == here => return o,
             _ => {}
@@ -184,7 +198,8 @@ impl<'a> Extractor<'a> {
             Some((b, e)) => {
                 let s = self.map(b);
                 let en = self.map(e.saturating_sub(1)) + 1;
-                self.ix.span(self.display, s, en.max(s).min(self.text.len()))
+                self.ix
+                    .span(self.display, s, en.max(s).min(self.text.len()))
             }
             None => self.ix.span(self.display, 0, 0),
         }
@@ -202,7 +217,10 @@ impl<'a> Extractor<'a> {
         e.map_locs(&mut |l| {
             let s = self.map(pp_base + l.start as usize);
             let en = self.map(pp_base + (l.end as usize).saturating_sub(1)) + 1;
-            Loc { start: s as u32, end: en.max(s) as u32 }
+            Loc {
+                start: s as u32,
+                end: en.max(s) as u32,
+            }
         });
         e
     }
@@ -220,12 +238,15 @@ impl<'a> Extractor<'a> {
             _ => None,
         });
         let name_node = find_first(n.clone(), |c| match c {
-            RefNode::ModuleIdentifier(_) | RefNode::InterfaceIdentifier(_) | RefNode::ProgramIdentifier(_) => {
-                Some(c.clone())
-            }
+            RefNode::ModuleIdentifier(_)
+            | RefNode::InterfaceIdentifier(_)
+            | RefNode::ProgramIdentifier(_) => Some(c.clone()),
             _ => None,
         });
-        let name = name_node.clone().map(|x| self.str(x).to_string()).unwrap_or_default();
+        let name = name_node
+            .clone()
+            .map(|x| self.str(x).to_string())
+            .unwrap_or_default();
         let name_span = name_node.map(|x| self.span_of(x)).unwrap_or_default();
         let mut m = Module {
             name,
@@ -246,20 +267,30 @@ impl<'a> Extractor<'a> {
             .map(|a| {
                 let t = self.str(a);
                 match t.split_once('=') {
-                    Some((k, v)) => Attribute { name: k.trim().into(), value: Some(v.trim().into()) },
-                    None => Attribute { name: t.trim().into(), value: None },
+                    Some((k, v)) => Attribute {
+                        name: k.trim().into(),
+                        value: Some(v.trim().into()),
+                    },
+                    None => Attribute {
+                        name: t.trim().into(),
+                        value: None,
+                    },
                 }
             })
             .collect();
             // parameters in the #( ) list
-            if let Some(ppl) = find_first(h.clone(), |c| matches!(c, RefNode::ParameterPortList(_)).then(|| c.clone())) {
+            if let Some(ppl) = find_first(h.clone(), |c| {
+                matches!(c, RefNode::ParameterPortList(_)).then(|| c.clone())
+            }) {
                 m.params = self.params_in(ppl, false);
             }
             // ANSI ports
             let mut last_dir = None;
             let mut last_packed: Vec<Range> = vec![];
             let mut last_var = false;
-            for p in find_all(h.clone(), |c| matches!(c, RefNode::AnsiPortDeclaration(_)).then(|| c.clone())) {
+            for p in find_all(h.clone(), |c| {
+                matches!(c, RefNode::AnsiPortDeclaration(_)).then(|| c.clone())
+            }) {
                 let mut port = self.ansi_port(p);
                 if port.direction.is_none() && port.packed.is_empty() && port.type_name.is_none() {
                     // `input [3:0] a, b`: b inherits a's direction and type
@@ -275,8 +306,12 @@ impl<'a> Extractor<'a> {
                 m.ports.push(port);
             }
             // non-ANSI port names
-            if let Some(lp) = find_first(h.clone(), |c| matches!(c, RefNode::ListOfPorts(_)).then(|| c.clone())) {
-                for pr in find_all(lp, |c| matches!(c, RefNode::PortIdentifier(_)).then(|| c.clone())) {
+            if let Some(lp) = find_first(h.clone(), |c| {
+                matches!(c, RefNode::ListOfPorts(_)).then(|| c.clone())
+            }) {
+                for pr in find_all(lp, |c| {
+                    matches!(c, RefNode::PortIdentifier(_)).then(|| c.clone())
+                }) {
                     m.ports.push(Port {
                         name: self.str(pr.clone()).to_string(),
                         direction: None,
@@ -335,7 +370,9 @@ impl<'a> Extractor<'a> {
         let mut local = force_local;
         walk(n, |c| match c {
             RefNode::LocalParameterDeclaration(_) => {
-                for pa in find_all(c, |x| matches!(x, RefNode::ParamAssignment(_)).then(|| x.clone())) {
+                for pa in find_all(c, |x| {
+                    matches!(x, RefNode::ParamAssignment(_)).then(|| x.clone())
+                }) {
                     out.push(self.param(pa, true));
                 }
                 Walk::Skip
@@ -354,10 +391,17 @@ impl<'a> Extractor<'a> {
     }
 
     fn param(&self, pa: RefNode<'a>, local: bool) -> Param {
-        let RefNode::ParamAssignment(x) = pa.clone() else { unreachable!() };
+        let RefNode::ParamAssignment(x) = pa.clone() else {
+            unreachable!()
+        };
         let name = self.str(RefNode::from(&x.nodes.0)).to_string();
         let default = x.nodes.2.as_ref().map(|(_, e)| self.expr(RefNode::from(e)));
-        Param { name, local, default, span: self.span_of(pa) }
+        Param {
+            name,
+            local,
+            default,
+            span: self.span_of(pa),
+        }
     }
 
     fn ranges(&self, n: RefNode<'a>) -> Vec<Range> {
@@ -377,9 +421,17 @@ impl<'a> Extractor<'a> {
                     msb: Expr::Binary {
                         op: "-".into(),
                         lhs: Box::new(n),
-                        rhs: Box::new(Expr::Const { text: "1".into(), value: Some(1), width: None }),
+                        rhs: Box::new(Expr::Const {
+                            text: "1".into(),
+                            value: Some(1),
+                            width: None,
+                        }),
                     },
-                    lsb: Expr::Const { text: "0".into(), value: Some(0), width: None },
+                    lsb: Expr::Const {
+                        text: "0".into(),
+                        value: Some(0),
+                        width: None,
+                    },
                 });
                 Walk::Skip
             }
@@ -435,15 +487,25 @@ impl<'a> Extractor<'a> {
     }
 
     fn ansi_port(&self, p: RefNode<'a>) -> Port {
-        let name_node = find_first(p.clone(), |c| matches!(c, RefNode::PortIdentifier(_)).then(|| c.clone()));
-        let name = name_node.map(|x| self.str(x).to_string()).unwrap_or_default();
+        let name_node = find_first(p.clone(), |c| {
+            matches!(c, RefNode::PortIdentifier(_)).then(|| c.clone())
+        });
+        let name = name_node
+            .map(|x| self.str(x).to_string())
+            .unwrap_or_default();
         let text = self.str(p.clone());
-        let is_var = matches!(p, RefNode::AnsiPortDeclaration(sv_parser::AnsiPortDeclaration::Variable(_)))
-            || has_word(text, "reg")
+        let is_var = matches!(
+            p,
+            RefNode::AnsiPortDeclaration(sv_parser::AnsiPortDeclaration::Variable(_))
+        ) || has_word(text, "reg")
             || (has_word(text, "logic") && !has_word(text, "input"))
             || has_word(text, "var");
         let unpacked = find_all(p.clone(), |c| {
-            matches!(c, RefNode::UnpackedDimension(_) | RefNode::VariableDimension(_)).then(|| c.clone())
+            matches!(
+                c,
+                RefNode::UnpackedDimension(_) | RefNode::VariableDimension(_)
+            )
+            .then(|| c.clone())
         })
         .into_iter()
         .flat_map(|u| self.ranges(u))
@@ -476,7 +538,10 @@ impl<'a> Extractor<'a> {
     }
 
     fn push(&self, out: &mut Vec<Item>, n: RefNode<'a>, kind: ItemKind) {
-        out.push(Item { span: self.span_of(n), kind });
+        out.push(Item {
+            span: self.span_of(n),
+            kind,
+        });
     }
 
     fn item(&self, c: RefNode<'a>, out: &mut Vec<Item>) -> Walk {
@@ -488,11 +553,19 @@ impl<'a> Extractor<'a> {
             }
             RefNode::ContinuousAssign(_) => {
                 for na in find_all(c.clone(), |x| {
-                    matches!(x, RefNode::NetAssignment(_) | RefNode::VariableAssignment(_)).then(|| x.clone())
+                    matches!(
+                        x,
+                        RefNode::NetAssignment(_) | RefNode::VariableAssignment(_)
+                    )
+                    .then(|| x.clone())
                 }) {
                     let (lhs, rhs) = match &na {
-                        RefNode::NetAssignment(a) => (RefNode::from(&a.nodes.0), RefNode::from(&a.nodes.2)),
-                        RefNode::VariableAssignment(a) => (RefNode::from(&a.nodes.0), RefNode::from(&a.nodes.2)),
+                        RefNode::NetAssignment(a) => {
+                            (RefNode::from(&a.nodes.0), RefNode::from(&a.nodes.2))
+                        }
+                        RefNode::VariableAssignment(a) => {
+                            (RefNode::from(&a.nodes.0), RefNode::from(&a.nodes.2))
+                        }
                         _ => unreachable!(),
                     };
                     let a = Assignment {
@@ -517,13 +590,22 @@ impl<'a> Extractor<'a> {
             RefNode::NetDeclaration(_) => {
                 let packed = self.packed_dims(c.clone());
                 let type_name = self.type_name(c.clone());
-                for d in find_all(c.clone(), |x| matches!(x, RefNode::NetDeclAssignment(_)).then(|| x.clone())) {
-                    let RefNode::NetDeclAssignment(a) = d.clone() else { continue };
+                for d in find_all(c.clone(), |x| {
+                    matches!(x, RefNode::NetDeclAssignment(_)).then(|| x.clone())
+                }) {
+                    let RefNode::NetDeclAssignment(a) = d.clone() else {
+                        continue;
+                    };
                     let decl = Decl {
                         name: self.str(RefNode::from(&a.nodes.0)).to_string(),
                         kind: DeclKind::Net,
                         packed: packed.clone(),
-                        unpacked: a.nodes.1.iter().flat_map(|u| self.ranges(RefNode::from(u))).collect(),
+                        unpacked: a
+                            .nodes
+                            .1
+                            .iter()
+                            .flat_map(|u| self.ranges(RefNode::from(u)))
+                            .collect(),
                         type_name: type_name.clone(),
                         init: a.nodes.2.as_ref().map(|(_, e)| self.expr(RefNode::from(e))),
                         span: self.span_of(d.clone()),
@@ -535,8 +617,12 @@ impl<'a> Extractor<'a> {
             RefNode::DataDeclaration(sv_parser::DataDeclaration::Variable(_)) => {
                 let packed = self.packed_dims(c.clone());
                 let type_name = self.type_name(c.clone());
-                for d in find_all(c.clone(), |x| matches!(x, RefNode::VariableDeclAssignment(_)).then(|| x.clone())) {
-                    let RefNode::VariableDeclAssignment(sv_parser::VariableDeclAssignment::Variable(a)) = d.clone()
+                for d in find_all(c.clone(), |x| {
+                    matches!(x, RefNode::VariableDeclAssignment(_)).then(|| x.clone())
+                }) {
+                    let RefNode::VariableDeclAssignment(
+                        sv_parser::VariableDeclAssignment::Variable(a),
+                    ) = d.clone()
                     else {
                         continue;
                     };
@@ -544,7 +630,12 @@ impl<'a> Extractor<'a> {
                         name: self.str(RefNode::from(&a.nodes.0)).to_string(),
                         kind: DeclKind::Var,
                         packed: packed.clone(),
-                        unpacked: a.nodes.1.iter().flat_map(|u| self.ranges(RefNode::from(u))).collect(),
+                        unpacked: a
+                            .nodes
+                            .1
+                            .iter()
+                            .flat_map(|u| self.ranges(RefNode::from(u)))
+                            .collect(),
                         type_name: type_name.clone(),
                         init: a.nodes.2.as_ref().map(|(_, e)| self.expr(RefNode::from(e))),
                         span: self.span_of(d.clone()),
@@ -555,7 +646,9 @@ impl<'a> Extractor<'a> {
             }
             RefNode::DataDeclaration(_) => Walk::Skip, // typedefs, imports
             RefNode::GenvarDeclaration(_) => {
-                for g in find_all(c.clone(), |x| matches!(x, RefNode::GenvarIdentifier(_)).then(|| x.clone())) {
+                for g in find_all(c.clone(), |x| {
+                    matches!(x, RefNode::GenvarIdentifier(_)).then(|| x.clone())
+                }) {
                     let decl = Decl {
                         name: self.str(g.clone()).to_string(),
                         kind: DeclKind::Genvar,
@@ -571,18 +664,31 @@ impl<'a> Extractor<'a> {
             }
             RefNode::PortDeclaration(_) => {
                 let dir = match &c {
-                    RefNode::PortDeclaration(sv_parser::PortDeclaration::Input(_)) => Some(Direction::Input),
-                    RefNode::PortDeclaration(sv_parser::PortDeclaration::Output(_)) => Some(Direction::Output),
-                    RefNode::PortDeclaration(sv_parser::PortDeclaration::Inout(_)) => Some(Direction::Inout),
-                    RefNode::PortDeclaration(sv_parser::PortDeclaration::Ref(_)) => Some(Direction::Ref),
+                    RefNode::PortDeclaration(sv_parser::PortDeclaration::Input(_)) => {
+                        Some(Direction::Input)
+                    }
+                    RefNode::PortDeclaration(sv_parser::PortDeclaration::Output(_)) => {
+                        Some(Direction::Output)
+                    }
+                    RefNode::PortDeclaration(sv_parser::PortDeclaration::Inout(_)) => {
+                        Some(Direction::Inout)
+                    }
+                    RefNode::PortDeclaration(sv_parser::PortDeclaration::Ref(_)) => {
+                        Some(Direction::Ref)
+                    }
                     _ => None,
                 };
                 let text = self.str(c.clone());
-                let is_var = has_word(text, "reg") || has_word(text, "logic") && dir != Some(Direction::Input);
+                let is_var = has_word(text, "reg")
+                    || has_word(text, "logic") && dir != Some(Direction::Input);
                 let packed = self.packed_dims(c.clone());
                 let type_name = self.type_name(c.clone());
                 for id in find_all(c.clone(), |x| {
-                    matches!(x, RefNode::PortIdentifier(_) | RefNode::VariableIdentifier(_)).then(|| x.clone())
+                    matches!(
+                        x,
+                        RefNode::PortIdentifier(_) | RefNode::VariableIdentifier(_)
+                    )
+                    .then(|| x.clone())
                 }) {
                     let p = Port {
                         name: self.str(id.clone()).to_string(),
@@ -601,7 +707,10 @@ impl<'a> Extractor<'a> {
                 let local = matches!(c, RefNode::LocalParameterDeclaration(_));
                 for p in self.params_in(c.clone(), local) {
                     let span = p.span.clone();
-                    out.push(Item { span, kind: ItemKind::Param(p) });
+                    out.push(Item {
+                        span,
+                        kind: ItemKind::Param(p),
+                    });
                 }
                 Walk::Skip
             }
@@ -610,8 +719,15 @@ impl<'a> Extractor<'a> {
                 let genvar = self.str(RefNode::from(&init.nodes.1)).to_string();
                 let init_e = self.expr(RefNode::from(&init.nodes.3));
                 let cond_e = self.expr(RefNode::from(cond));
-                let id = |s: &str| Expr::Ident { name: s.to_string(), loc: Loc::default() };
-                let one = Expr::Const { text: "1".into(), value: Some(1), width: None };
+                let id = |s: &str| Expr::Ident {
+                    name: s.to_string(),
+                    loc: Loc::default(),
+                };
+                let one = Expr::Const {
+                    text: "1".into(),
+                    value: Some(1),
+                    width: None,
+                };
                 let step = match iter {
                     sv_parser::GenvarIteration::Assignment(a) => {
                         let op = self.str(RefNode::from(&a.nodes.1));
@@ -620,22 +736,49 @@ impl<'a> Extractor<'a> {
                             rhs
                         } else {
                             let bop = op.trim_end_matches('=').to_string();
-                            Expr::Binary { op: bop, lhs: Box::new(id(&genvar)), rhs: Box::new(rhs) }
+                            Expr::Binary {
+                                op: bop,
+                                lhs: Box::new(id(&genvar)),
+                                rhs: Box::new(rhs),
+                            }
                         }
                     }
                     sv_parser::GenvarIteration::Prefix(p) => {
-                        let op = if self.str(RefNode::from(&p.nodes.0)) == "++" { "+" } else { "-" };
-                        Expr::Binary { op: op.into(), lhs: Box::new(id(&genvar)), rhs: Box::new(one) }
+                        let op = if self.str(RefNode::from(&p.nodes.0)) == "++" {
+                            "+"
+                        } else {
+                            "-"
+                        };
+                        Expr::Binary {
+                            op: op.into(),
+                            lhs: Box::new(id(&genvar)),
+                            rhs: Box::new(one),
+                        }
                     }
                     sv_parser::GenvarIteration::Suffix(p) => {
-                        let op = if self.str(RefNode::from(&p.nodes.1)) == "++" { "+" } else { "-" };
-                        Expr::Binary { op: op.into(), lhs: Box::new(id(&genvar)), rhs: Box::new(one) }
+                        let op = if self.str(RefNode::from(&p.nodes.1)) == "++" {
+                            "+"
+                        } else {
+                            "-"
+                        };
+                        Expr::Binary {
+                            op: op.into(),
+                            lhs: Box::new(id(&genvar)),
+                            rhs: Box::new(one),
+                        }
                     }
                 };
                 let block = RefNode::from(&g.nodes.2);
                 let label = self.block_label(block.clone());
                 let items = self.items(block, None);
-                let gf = GenerateFor { genvar, init: init_e, cond: cond_e, step, label, items };
+                let gf = GenerateFor {
+                    genvar,
+                    init: init_e,
+                    cond: cond_e,
+                    step,
+                    label,
+                    items,
+                };
                 self.push(out, c, ItemKind::GenerateFor(gf));
                 Walk::Skip
             }
@@ -649,7 +792,11 @@ impl<'a> Extractor<'a> {
                     labels.push(self.block_label(eb.clone()));
                     branches.push((None, self.items(eb, None)));
                 }
-                self.push(out, c, ItemKind::GenerateIf(GenerateIf { branches, labels }));
+                self.push(
+                    out,
+                    c,
+                    ItemKind::GenerateIf(GenerateIf { branches, labels }),
+                );
                 Walk::Skip
             }
             RefNode::CaseGenerateConstruct(g) => {
@@ -668,7 +815,11 @@ impl<'a> Extractor<'a> {
                                 };
                                 cond = Some(match cond {
                                     None => eq,
-                                    Some(p) => Expr::Binary { op: "||".into(), lhs: Box::new(p), rhs: Box::new(eq) },
+                                    Some(p) => Expr::Binary {
+                                        op: "||".into(),
+                                        lhs: Box::new(p),
+                                        rhs: Box::new(eq),
+                                    },
                                 });
                             }
                             let b = RefNode::from(&nd.nodes.2);
@@ -689,7 +840,11 @@ impl<'a> Extractor<'a> {
                     branches.push(d);
                     labels.push(l);
                 }
-                self.push(out, c, ItemKind::GenerateIf(GenerateIf { branches, labels }));
+                self.push(
+                    out,
+                    c,
+                    ItemKind::GenerateIf(GenerateIf { branches, labels }),
+                );
                 Walk::Skip
             }
             RefNode::InitialConstruct(_) => self.ignored(out, c, "initial"),
@@ -698,9 +853,13 @@ impl<'a> Extractor<'a> {
             | RefNode::DeferredImmediateAssertionItem(_)
             | RefNode::AssertionItem(_) => self.ignored(out, c, "assertion"),
             RefNode::ClockingDeclaration(_) => self.ignored(out, c, "clocking"),
-            RefNode::PropertyDeclaration(_) | RefNode::SequenceDeclaration(_) => self.ignored(out, c, "property"),
+            RefNode::PropertyDeclaration(_) | RefNode::SequenceDeclaration(_) => {
+                self.ignored(out, c, "property")
+            }
             RefNode::CovergroupDeclaration(_) => self.ignored(out, c, "covergroup"),
-            RefNode::FunctionDeclaration(_) | RefNode::TaskDeclaration(_) => self.ignored(out, c, "subroutine"),
+            RefNode::FunctionDeclaration(_) | RefNode::TaskDeclaration(_) => {
+                self.ignored(out, c, "subroutine")
+            }
             RefNode::ElaborationSystemTask(_) => self.ignored(out, c, "elaboration task"),
             RefNode::ModuleDeclarationAnsi(_) | RefNode::ModuleDeclarationNonansi(_) => {
                 self.ignored(out, c, "nested module")
@@ -721,13 +880,20 @@ impl<'a> Extractor<'a> {
                 .0
                 .as_ref()
                 .map(|(id, _)| self.str(RefNode::from(id)).to_string())
-                .or_else(|| m.nodes.2.as_ref().map(|(_, id)| self.str(RefNode::from(id)).to_string())),
+                .or_else(|| {
+                    m.nodes
+                        .2
+                        .as_ref()
+                        .map(|(_, id)| self.str(RefNode::from(id)).to_string())
+                }),
             _ => None,
         }
     }
 
     fn instances(&self, c: RefNode<'a>) -> Vec<Instance> {
-        let RefNode::ModuleInstantiation(mi) = c else { return vec![] };
+        let RefNode::ModuleInstantiation(mi) = c else {
+            return vec![];
+        };
         let module = self.str(RefNode::from(&mi.nodes.0)).to_string();
         let mut params = Vec::new();
         if let Some(pva) = &mi.nodes.1 {
@@ -743,7 +909,13 @@ impl<'a> Extractor<'a> {
                 RefNode::NamedParameterAssignment(np) => {
                     params.push(Connection {
                         port: Some(self.str(RefNode::from(&np.nodes.1)).to_string()),
-                        expr: np.nodes.2.nodes.1.as_ref().map(|e| self.expr(RefNode::from(e))),
+                        expr: np
+                            .nodes
+                            .2
+                            .nodes
+                            .1
+                            .as_ref()
+                            .map(|e| self.expr(RefNode::from(e))),
                         span: self.span_of(x.clone()),
                     });
                     Walk::Skip
@@ -754,7 +926,14 @@ impl<'a> Extractor<'a> {
         let mut out = Vec::new();
         for hi in mi.nodes.2.contents() {
             let name_node = RefNode::from(&hi.nodes.0.nodes.0);
-            let array = hi.nodes.0.nodes.1.iter().flat_map(|u| self.ranges(RefNode::from(u))).collect();
+            let array = hi
+                .nodes
+                .0
+                .nodes
+                .1
+                .iter()
+                .flat_map(|u| self.ranges(RefNode::from(u)))
+                .collect();
             let mut conns = Vec::new();
             let mut wildcard = false;
             walk(RefNode::from(hi), |x| match x {
@@ -770,10 +949,17 @@ impl<'a> Extractor<'a> {
                     let port = self.str(RefNode::from(&np.nodes.2)).to_string();
                     let expr = match &np.nodes.3 {
                         // `.clk` alone connects to the same-named signal
-                        None => Some(Expr::Ident { name: port.clone(), loc: Loc::default() }),
+                        None => Some(Expr::Ident {
+                            name: port.clone(),
+                            loc: Loc::default(),
+                        }),
                         Some(p) => p.nodes.1.as_ref().map(|e| self.expr(RefNode::from(e))),
                     };
-                    conns.push(Connection { port: Some(port), expr, span: self.span_of(x.clone()) });
+                    conns.push(Connection {
+                        port: Some(port),
+                        expr,
+                        span: self.span_of(x.clone()),
+                    });
                     Walk::Skip
                 }
                 RefNode::NamedPortConnectionAsterisk(_) => {
@@ -798,7 +984,9 @@ impl<'a> Extractor<'a> {
     // ------------------------------------------------------------ processes
 
     fn process(&self, c: RefNode<'a>) -> Process {
-        let RefNode::AlwaysConstruct(ac) = c.clone() else { unreachable!() };
+        let RefNode::AlwaysConstruct(ac) = c.clone() else {
+            unreachable!()
+        };
         let kind = match &ac.nodes.0 {
             AlwaysKeyword::Always(_) => ProcessKind::Always,
             AlwaysKeyword::AlwaysComb(_) => ProcessKind::AlwaysComb,
@@ -843,10 +1031,16 @@ impl<'a> Extractor<'a> {
                                     && ((ev.edge == Edge::Posedge) == high)
                             });
                             if let Some(ev) = m {
-                                if p.async_controls.iter().any(|a| a.signal.base_name() == ev.signal.base_name()) {
+                                if p.async_controls
+                                    .iter()
+                                    .any(|a| a.signal.base_name() == ev.signal.base_name())
+                                {
                                     break;
                                 }
-                                p.async_controls.push(AsyncControl { signal: ev.signal.clone(), active_high: high });
+                                p.async_controls.push(AsyncControl {
+                                    signal: ev.signal.clone(),
+                                    active_high: high,
+                                });
                                 n_async += 1;
                                 continue;
                             }
@@ -855,7 +1049,11 @@ impl<'a> Extractor<'a> {
                         None => break,
                     }
                 }
-                let controls: Vec<&str> = p.async_controls.iter().filter_map(|a| a.signal.base_name()).collect();
+                let controls: Vec<&str> = p
+                    .async_controls
+                    .iter()
+                    .filter_map(|a| a.signal.base_name())
+                    .collect();
                 p.clock = edges
                     .iter()
                     .find(|e| !controls.contains(&e.signal.base_name().unwrap_or("")))
@@ -947,7 +1145,13 @@ impl<'a> Extractor<'a> {
         out
     }
 
-    fn stmt_or_null(&self, s: &'a StatementOrNull, ctx: &mut Ctx, out: &mut Vec<Assignment>, locals: &mut Vec<String>) {
+    fn stmt_or_null(
+        &self,
+        s: &'a StatementOrNull,
+        ctx: &mut Ctx,
+        out: &mut Vec<Assignment>,
+        locals: &mut Vec<String>,
+    ) {
         if let StatementOrNull::Statement(st) = s {
             self.stmt(st, ctx, out, locals);
         }
@@ -963,7 +1167,9 @@ impl<'a> Extractor<'a> {
         out: &mut Vec<Assignment>,
         locals: &mut Vec<String>,
     ) {
-        let StatementOrNull::Statement(st) = s else { return };
+        let StatementOrNull::Statement(st) = s else {
+            return;
+        };
         match &st.nodes.2 {
             StatementItem::ConditionalStatement(cs) if std::ptr::eq(&**cs, target) => {
                 self.conditional(cs, n_async, ctx, out, locals)
@@ -981,23 +1187,43 @@ impl<'a> Extractor<'a> {
     fn block_locals(&self, sb: RefNode<'a>, locals: &mut Vec<String>) {
         if let RefNode::SeqBlock(b) = sb {
             for d in &b.nodes.2 {
-                for v in find_all(RefNode::from(d), |x| matches!(x, RefNode::VariableIdentifier(_)).then(|| x.clone())) {
+                for v in find_all(RefNode::from(d), |x| {
+                    matches!(x, RefNode::VariableIdentifier(_)).then(|| x.clone())
+                }) {
                     locals.push(self.str(v).to_string());
                 }
             }
         }
     }
 
-    fn stmt(&self, st: &'a Statement, ctx: &mut Ctx, out: &mut Vec<Assignment>, locals: &mut Vec<String>) {
+    fn stmt(
+        &self,
+        st: &'a Statement,
+        ctx: &mut Ctx,
+        out: &mut Vec<Assignment>,
+        locals: &mut Vec<String>,
+    ) {
         let span_node = RefNode::from(st);
         match &st.nodes.2 {
             StatementItem::NonblockingAssignment(b) => {
                 let a = &b.0;
-                out.push(self.assignment(RefNode::from(&a.nodes.0), self.expr(RefNode::from(&a.nodes.3)), false, ctx, span_node));
+                out.push(self.assignment(
+                    RefNode::from(&a.nodes.0),
+                    self.expr(RefNode::from(&a.nodes.3)),
+                    false,
+                    ctx,
+                    span_node,
+                ));
             }
             StatementItem::BlockingAssignment(b) => match &b.0 {
                 BlockingAssignment::Variable(v) => {
-                    out.push(self.assignment(RefNode::from(&v.nodes.0), self.expr(RefNode::from(&v.nodes.3)), true, ctx, span_node));
+                    out.push(self.assignment(
+                        RefNode::from(&v.nodes.0),
+                        self.expr(RefNode::from(&v.nodes.3)),
+                        true,
+                        ctx,
+                        span_node,
+                    ));
                 }
                 BlockingAssignment::OperatorAssignment(o) => {
                     let op = self.str(RefNode::from(&o.nodes.1));
@@ -1028,7 +1254,11 @@ impl<'a> Extractor<'a> {
                 let rhs = Expr::Binary {
                     op: op.into(),
                     lhs: Box::new(target.clone()),
-                    rhs: Box::new(Expr::Const { text: "1".into(), value: Some(1), width: None }),
+                    rhs: Box::new(Expr::Const {
+                        text: "1".into(),
+                        value: Some(1),
+                        width: None,
+                    }),
                 };
                 out.push(Assignment {
                     target,
@@ -1048,7 +1278,9 @@ impl<'a> Extractor<'a> {
                     self.stmt_or_null(s, ctx, out, locals);
                 }
             }
-            StatementItem::ProceduralTimingControlStatement(p) => self.stmt_or_null(&p.nodes.1, ctx, out, locals),
+            StatementItem::ProceduralTimingControlStatement(p) => {
+                self.stmt_or_null(&p.nodes.1, ctx, out, locals)
+            }
             StatementItem::LoopStatement(l) => {
                 let mut inner = ctx.clone();
                 inner.in_loop = true;
@@ -1065,7 +1297,14 @@ impl<'a> Extractor<'a> {
         }
     }
 
-    fn assignment(&self, lhs: RefNode<'a>, rhs: Expr, blocking: bool, ctx: &Ctx, span: RefNode<'a>) -> Assignment {
+    fn assignment(
+        &self,
+        lhs: RefNode<'a>,
+        rhs: Expr,
+        blocking: bool,
+        ctx: &Ctx,
+        span: RefNode<'a>,
+    ) -> Assignment {
         Assignment {
             target: self.expr(lhs),
             rhs,
@@ -1100,9 +1339,15 @@ impl<'a> Extractor<'a> {
                 continue;
             }
             inner.guards.extend(negated.iter().cloned());
-            inner.guards.push(Guard { cond: cond.clone(), polarity: true });
+            inner.guards.push(Guard {
+                cond: cond.clone(),
+                polarity: true,
+            });
             self.stmt_or_null(body, &mut inner, out, locals);
-            negated.push(Guard { cond, polarity: false });
+            negated.push(Guard {
+                cond,
+                polarity: false,
+            });
         }
         if let Some((_, s)) = &cs.nodes.5 {
             let mut inner = ctx.clone();
@@ -1111,7 +1356,13 @@ impl<'a> Extractor<'a> {
         }
     }
 
-    fn case(&self, cs: &'a CaseStatement, ctx: &mut Ctx, out: &mut Vec<Assignment>, locals: &mut Vec<String>) {
+    fn case(
+        &self,
+        cs: &'a CaseStatement,
+        ctx: &mut Ctx,
+        out: &mut Vec<Assignment>,
+        locals: &mut Vec<String>,
+    ) {
         match cs {
             CaseStatement::Normal(n) => {
                 let sel = self.expr(RefNode::from(&n.nodes.2.nodes.1));
@@ -1131,12 +1382,19 @@ impl<'a> Extractor<'a> {
                                 };
                                 cond = Some(match cond {
                                     None => eq,
-                                    Some(p) => Expr::Binary { op: "||".into(), lhs: Box::new(p), rhs: Box::new(eq) },
+                                    Some(p) => Expr::Binary {
+                                        op: "||".into(),
+                                        lhs: Box::new(p),
+                                        rhs: Box::new(eq),
+                                    },
                                 });
                             }
                             let cond = cond.unwrap_or_else(|| sel.clone());
                             let mut inner = ctx.clone();
-                            inner.guards.push(Guard { cond: cond.clone(), polarity: true });
+                            inner.guards.push(Guard {
+                                cond: cond.clone(),
+                                polarity: true,
+                            });
                             self.stmt_or_null(&nd.nodes.2, &mut inner, out, locals);
                             all_conds.push(cond);
                         }
@@ -1146,7 +1404,10 @@ impl<'a> Extractor<'a> {
                 if let Some(d) = default {
                     let mut inner = ctx.clone();
                     for c in all_conds {
-                        inner.guards.push(Guard { cond: c, polarity: false });
+                        inner.guards.push(Guard {
+                            cond: c,
+                            polarity: false,
+                        });
                     }
                     self.stmt_or_null(d, &mut inner, out, locals);
                 }
@@ -1156,7 +1417,10 @@ impl<'a> Extractor<'a> {
                 let node = RefNode::from(other);
                 let guard = opaque(self.str(node.clone()).split(')').next().unwrap_or(""));
                 let mut inner = ctx.clone();
-                inner.guards.push(Guard { cond: guard, polarity: true });
+                inner.guards.push(Guard {
+                    cond: guard,
+                    polarity: true,
+                });
                 for s in find_all(node, |x| match x {
                     RefNode::StatementOrNull(s) => Some(*s),
                     _ => None,
@@ -1173,17 +1437,24 @@ fn is_ident_byte(c: u8) -> bool {
 }
 
 fn has_word(text: &str, w: &str) -> bool {
-    text.split(|c: char| !(c.is_alphanumeric() || c == '_')).any(|t| t == w)
+    text.split(|c: char| !(c.is_alphanumeric() || c == '_'))
+        .any(|t| t == w)
 }
 
 /// The first statement of a body if it is an if (through begin/end with one statement).
 fn leading_if(b: &StatementOrNull) -> Option<&ConditionalStatement> {
-    let StatementOrNull::Statement(st) = b else { return None };
+    let StatementOrNull::Statement(st) = b else {
+        return None;
+    };
     match &st.nodes.2 {
         StatementItem::ConditionalStatement(cs) => Some(cs),
         StatementItem::SeqBlock(sb) => {
-            let stmts: Vec<&StatementOrNull> =
-                sb.nodes.3.iter().filter(|s| matches!(s, StatementOrNull::Statement(_))).collect();
+            let stmts: Vec<&StatementOrNull> = sb
+                .nodes
+                .3
+                .iter()
+                .filter(|s| matches!(s, StatementOrNull::Statement(_)))
+                .collect();
             if stmts.len() == 1 {
                 leading_if(stmts[0])
             } else {
@@ -1210,8 +1481,12 @@ pub fn polarity_test(e: &Expr) -> Option<(String, bool)> {
             polarity_test(arg).map(|(n, h)| (n, !h))
         }
         Expr::Binary { op, lhs, rhs } if op == "==" || op == "!=" || op == "===" || op == "!==" => {
-            let Expr::Ident { name, .. } = &**lhs else { return None };
-            let Expr::Const { value: Some(v), .. } = &**rhs else { return None };
+            let Expr::Ident { name, .. } = &**lhs else {
+                return None;
+            };
+            let Expr::Const { value: Some(v), .. } = &**rhs else {
+                return None;
+            };
             let eq = op.starts_with('=');
             let high = (*v != 0) == eq;
             Some((name.clone(), high))

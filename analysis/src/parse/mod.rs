@@ -28,7 +28,11 @@ pub struct ParseOptions {
 
 impl Default for ParseOptions {
     fn default() -> Self {
-        ParseOptions { include_dirs: Vec::new(), max_file_bytes: 8_000_000, max_nesting: 256 }
+        ParseOptions {
+            include_dirs: Vec::new(),
+            max_file_bytes: 8_000_000,
+            max_nesting: 256,
+        }
     }
 }
 
@@ -54,7 +58,11 @@ impl MacroTable {
         for (k, v) in pairs {
             t.defs.insert(
                 k.to_string(),
-                Some(MacroDef { args: vec![], body: v.map(|s| s.to_string()), origin: None }),
+                Some(MacroDef {
+                    args: vec![],
+                    body: v.map(|s| s.to_string()),
+                    origin: None,
+                }),
             );
         }
         t
@@ -142,9 +150,12 @@ pub fn decode<'b>(path: &str, bytes: &'b [u8]) -> Result<&'b str, Problem> {
         let good = e.valid_up_to();
         let text = std::str::from_utf8(&bytes[..good]).unwrap_or("");
         let ix = LineIndex::new(text);
-        Problem { hint: false,
+        Problem {
+            hint: false,
             span: ix.span(path, good, good),
-            message: format!("file is not UTF-8 text (invalid byte at offset {good}); not analysed"),
+            message: format!(
+                "file is not UTF-8 text (invalid byte at offset {good}); not analysed"
+            ),
         }
     })
 }
@@ -153,13 +164,22 @@ pub fn decode<'b>(path: &str, bytes: &'b [u8]) -> Result<&'b str, Problem> {
 ///
 /// `path` is what sv-parser reads includes relative to; `display` names the file in spans
 /// (usually the path relative to the workspace root).
-pub fn parse_file(path: &str, display: &str, bytes: &[u8], macros: &MacroTable, opts: &ParseOptions) -> ParseOutput {
+pub fn parse_file(
+    path: &str,
+    display: &str,
+    bytes: &[u8],
+    macros: &MacroTable,
+    opts: &ParseOptions,
+) -> ParseOutput {
     let text = match decode(display, bytes) {
         Ok(t) => t,
         Err(p) => {
             let mut m = empty_model(display, "");
             m.problems.push(p);
-            return ParseOutput { model: m, macros_out: macros.clone() };
+            return ParseOutput {
+                model: m,
+                macros_out: macros.clone(),
+            };
         }
     };
     match preprocess(path, display, text, macros, opts) {
@@ -171,7 +191,10 @@ pub fn parse_file(path: &str, display: &str, bytes: &[u8], macros: &MacroTable, 
         Err(problem) => {
             let mut m = empty_model(display, text);
             m.problems.push(*problem);
-            ParseOutput { model: m, macros_out: macros.clone() }
+            ParseOutput {
+                model: m,
+                macros_out: macros.clone(),
+            }
         }
     }
 }
@@ -186,7 +209,8 @@ pub fn preprocess(
 ) -> Result<Preprocessed, Box<Problem>> {
     let ix = LineIndex::new(text);
     if text.len() > opts.max_file_bytes {
-        return Err(Box::new(Problem { hint: false,
+        return Err(Box::new(Problem {
+            hint: false,
             span: ix.span(display, 0, 0),
             message: format!(
                 "file is {} bytes, over the limit of {} (`[design] max_file_bytes`); not analysed",
@@ -202,10 +226,15 @@ pub fn preprocess(
     match result {
         Ok(Ok((pp, defines))) => {
             let macros_out = MacroTable::from_sv(&defines);
-            Ok(Preprocessed { text: pp, defines, macros_out })
+            Ok(Preprocessed {
+                text: pp,
+                defines,
+                macros_out,
+            })
         }
         Ok(Err(e)) => Err(Box::new(locate_error(path, display, text, &e))),
-        Err(_) => Err(Box::new(Problem { hint: false,
+        Err(_) => Err(Box::new(Problem {
+            hint: false,
             span: ix.span(display, 0, 0),
             message: "the preprocessor failed on this file (internal panic); not analysed".into(),
         })),
@@ -213,7 +242,13 @@ pub fn preprocess(
 }
 
 /// Phase 2: nesting guard, parse, and model extraction.
-pub fn parse_preprocessed(path: &str, display: &str, text: &str, pp: Preprocessed, opts: &ParseOptions) -> FileModel {
+pub fn parse_preprocessed(
+    path: &str,
+    display: &str,
+    text: &str,
+    pp: Preprocessed,
+    opts: &ParseOptions,
+) -> FileModel {
     let mut model = empty_model(display, text);
     let ix = LineIndex::new(text);
     if text.trim().is_empty() {
@@ -225,7 +260,11 @@ pub fn parse_preprocessed(path: &str, display: &str, text: &str, pp: Preprocesse
         return model;
     }
     if let Some((depth, pos)) = nesting_over(pp.text.text(), opts.max_nesting) {
-        let orig = pp.text.origin(pos).filter(|(p, _)| p.as_path() == Path::new(path)).map(|(_, o)| o);
+        let orig = pp
+            .text
+            .origin(pos)
+            .filter(|(p, _)| p.as_path() == Path::new(path))
+            .map(|(_, o)| o);
         let at = orig.unwrap_or(0);
         model.problems.push(Problem { hint: false,
             span: ix.span(display, at, at),
@@ -247,7 +286,11 @@ pub fn parse_preprocessed(path: &str, display: &str, text: &str, pp: Preprocesse
                 .unwrap_or(n)
         })
         .collect();
-    let Preprocessed { text: pptext, defines, .. } = pp;
+    let Preprocessed {
+        text: pptext,
+        defines,
+        ..
+    } = pp;
     let result = std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| {
         sv_parser::parse_sv_pp(pptext, defines, false)
     }));
@@ -259,7 +302,8 @@ pub fn parse_preprocessed(path: &str, display: &str, text: &str, pp: Preprocesse
             model.packages = packages;
         }
         Ok(Err(e)) => model.problems.push(locate_error(path, display, text, &e)),
-        Err(_) => model.problems.push(Problem { hint: false,
+        Err(_) => model.problems.push(Problem {
+            hint: false,
             span: ix.span(display, 0, 0),
             message: "the parser failed on this file (internal panic); not analysed".into(),
         }),
@@ -304,7 +348,8 @@ fn nesting_over(text: &str, limit: usize) -> Option<(usize, usize)> {
             b')' | b']' | b'}' => depth = depth.saturating_sub(1),
             c if c.is_ascii_alphabetic() || c == b'_' => {
                 let s = i;
-                while i < b.len() && (b[i].is_ascii_alphanumeric() || b[i] == b'_' || b[i] == b'$') {
+                while i < b.len() && (b[i].is_ascii_alphanumeric() || b[i] == b'_' || b[i] == b'$')
+                {
                     i += 1;
                 }
                 match &text[s..i] {
@@ -338,13 +383,19 @@ fn locate_error(path: &str, display: &str, text: &str, e: &sv_parser::Error) -> 
         E::Parse(Some((p, pos))) if here(p) => (*pos, "syntax error".to_string()),
         E::Parse(Some((p, pos))) => (
             include_line(text, p).unwrap_or(0),
-            format!("syntax error in included file {} at byte {pos}", p.display()),
+            format!(
+                "syntax error in included file {} at byte {pos}",
+                p.display()
+            ),
         ),
         E::Parse(None) => (text.len(), "syntax error (unexpected end of file)".into()),
         E::Preprocess(Some((p, pos))) if here(p) => (*pos, "preprocessor error".into()),
         E::Preprocess(Some((p, pos))) => (
             include_line(text, p).unwrap_or(0),
-            format!("preprocessor error in included file {} at byte {pos}", p.display()),
+            format!(
+                "preprocessor error in included file {} at byte {pos}",
+                p.display()
+            ),
         ),
         E::Preprocess(None) => (0, "preprocessor error".into()),
         E::DefineNotFound(name) => (
@@ -364,17 +415,27 @@ fn locate_error(path: &str, display: &str, text: &str, e: &sv_parser::Error) -> 
             include_line(text, p).unwrap_or(0),
             format!("cannot read included file {}", p.display()),
         ),
-        E::ReadUtf8(p) => (include_line(text, p).unwrap_or(0), format!("{} is not UTF-8 text", p.display())),
+        E::ReadUtf8(p) => (
+            include_line(text, p).unwrap_or(0),
+            format!("{} is not UTF-8 text", p.display()),
+        ),
         E::ExceedRecursiveLimit => (
             first_include(text).unwrap_or(0),
             "include nesting too deep (an include cycle?)".into(),
         ),
-        E::IncludeLine => (first_include(text).unwrap_or(0), "an `include line can't have other items".into()),
+        E::IncludeLine => (
+            first_include(text).unwrap_or(0),
+            "an `include line can't have other items".into(),
+        ),
         E::Io(err) => (0, format!("I/O error: {err}")),
     };
     let at = at.min(text.len());
     let end = token_end(text, at);
-    Problem { hint: false, span: ix.span(display, at, end), message }
+    Problem {
+        hint: false,
+        span: ix.span(display, at, end),
+        message,
+    }
 }
 
 fn include_problem(path: &str, text: &str, source: &sv_parser::Error) -> Problem {
@@ -382,14 +443,29 @@ fn include_problem(path: &str, text: &str, source: &sv_parser::Error) -> Problem
     let ix = LineIndex::new(text);
     let (at, message) = match source {
         E::File { path: p, .. } => (
-            include_line(text, p).or_else(|| first_include(text)).unwrap_or(0),
-            format!("included file {} not found (check `[design] include_dirs`)", p.display()),
+            include_line(text, p)
+                .or_else(|| first_include(text))
+                .unwrap_or(0),
+            format!(
+                "included file {} not found (check `[design] include_dirs`)",
+                p.display()
+            ),
         ),
-        E::ExceedRecursiveLimit => (first_include(text).unwrap_or(0), "include nesting too deep (an include cycle?)".into()),
-        other => (first_include(text).unwrap_or(0), format!("in an included file: {other}")),
+        E::ExceedRecursiveLimit => (
+            first_include(text).unwrap_or(0),
+            "include nesting too deep (an include cycle?)".into(),
+        ),
+        other => (
+            first_include(text).unwrap_or(0),
+            format!("in an included file: {other}"),
+        ),
     };
     let end = token_end(text, at);
-    Problem { hint: false, span: ix.span(path, at, end), message }
+    Problem {
+        hint: false,
+        span: ix.span(path, at, end),
+        message,
+    }
 }
 
 fn token_end(text: &str, at: usize) -> usize {
@@ -475,17 +551,34 @@ pub fn waiver_comments(path: &str, text: &str) -> Vec<WaiverComment> {
         from = at + 5;
         // must be inside a // comment on this line
         let line_start = text[..at].rfind(['\n', '\r']).map(|p| p + 1).unwrap_or(0);
-        let Some(c) = text[line_start..at].find("//") else { continue };
+        let Some(c) = text[line_start..at].find("//") else {
+            continue;
+        };
         let _ = c;
-        let rest_end = text[at..].find(['\n', '\r']).map(|e| at + e).unwrap_or(text.len());
+        let rest_end = text[at..]
+            .find(['\n', '\r'])
+            .map(|e| at + e)
+            .unwrap_or(text.len());
         let rest = text[at + 5..rest_end].trim_start();
-        let Some(args) = rest.strip_prefix("allow(") else { continue };
-        let Some(close) = args.find(')') else { continue };
-        let rules: Vec<String> =
-            args[..close].split(',').map(|s| s.trim().to_string()).filter(|s| !s.is_empty()).collect();
+        let Some(args) = rest.strip_prefix("allow(") else {
+            continue;
+        };
+        let Some(close) = args.find(')') else {
+            continue;
+        };
+        let rules: Vec<String> = args[..close]
+            .split(',')
+            .map(|s| s.trim().to_string())
+            .filter(|s| !s.is_empty())
+            .collect();
         let reason = args[close + 1..].trim().to_string();
         let (line, _) = ix.line_col(at);
-        out.push(WaiverComment { line, rules, reason, span: ix.span(path, line_start + c, rest_end) });
+        out.push(WaiverComment {
+            line,
+            rules,
+            reason,
+            span: ix.span(path, line_start + c, rest_end),
+        });
     }
     out
 }
@@ -504,7 +597,11 @@ mod tests {
 
     #[test]
     fn nesting_guard_finds_deep_parens() {
-        let t = format!("module m; assign a = {}b{}; endmodule", "(".repeat(300), ")".repeat(300));
+        let t = format!(
+            "module m; assign a = {}b{}; endmodule",
+            "(".repeat(300),
+            ")".repeat(300)
+        );
         assert!(nesting_over(&t, 256).is_some());
         assert!(nesting_over("module m; assign a = ((b)); endmodule", 256).is_none());
     }

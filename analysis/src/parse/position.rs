@@ -48,12 +48,23 @@ impl<'t> LineIndex<'t> {
     pub fn span(&self, file: &str, start: usize, end: usize) -> Span {
         let (line, column) = self.line_col(start);
         let (end_line, end_column) = self.line_col(end.max(start));
-        Span { file: file.to_string(), start, end: end.max(start), line, column, end_line, end_column }
+        Span {
+            file: file.to_string(),
+            start,
+            end: end.max(start),
+            line,
+            column,
+            end_line,
+            end_column,
+        }
     }
 
     /// Byte offset of the start of a 1-based line.
     pub fn line_start(&self, line: u32) -> usize {
-        self.starts.get(line.saturating_sub(1) as usize).copied().unwrap_or(self.text.len())
+        self.starts
+            .get(line.saturating_sub(1) as usize)
+            .copied()
+            .unwrap_or(self.text.len())
     }
 
     pub fn line_count(&self) -> usize {

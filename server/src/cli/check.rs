@@ -62,17 +62,25 @@ pub fn run(a: CheckArgs) -> ExitCode {
         Ok(p) => p,
         Err(e) => return super::usage_error(e.0),
     };
-    let jobs = a.jobs.unwrap_or_else(|| std::thread::available_parallelism().map(|n| n.get()).unwrap_or(2));
+    let jobs = a.jobs.unwrap_or_else(|| {
+        std::thread::available_parallelism()
+            .map(|n| n.get())
+            .unwrap_or(2)
+    });
     let t_load = t0.elapsed();
     // a progress bar on stderr, only for people watching a terminal
-    let bar = (!a.quiet && std::io::IsTerminal::is_terminal(&std::io::stderr()) && proj.jobs.len() > 20).then(|| {
-        let b = indicatif::ProgressBar::new(proj.jobs.len() as u64);
-        b.set_style(
-            indicatif::ProgressStyle::with_template("parsing {bar:30} {pos}/{len} files {elapsed}")
-                .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar()),
-        );
-        b
-    });
+    let bar =
+        (!a.quiet && std::io::IsTerminal::is_terminal(&std::io::stderr()) && proj.jobs.len() > 20)
+            .then(|| {
+                let b = indicatif::ProgressBar::new(proj.jobs.len() as u64);
+                b.set_style(
+                    indicatif::ProgressStyle::with_template(
+                        "parsing {bar:30} {pos}/{len} files {elapsed}",
+                    )
+                    .unwrap_or_else(|_| indicatif::ProgressStyle::default_bar()),
+                );
+                b
+            });
     let models = worker::parse_all_with_progress(
         &proj.jobs,
         proj.macros.clone(),
@@ -92,7 +100,10 @@ pub fn run(a: CheckArgs) -> ExitCode {
     let t_d0 = Instant::now();
     let mut analysis = if a.parse_only {
         seam_analysis::report::Analysis {
-            findings: models.iter().flat_map(seam_analysis::finding::syntax_findings).collect(),
+            findings: models
+                .iter()
+                .flat_map(seam_analysis::finding::syntax_findings)
+                .collect(),
             files: models.len(),
             modules: models.iter().map(|m| m.modules.len()).sum(),
             ..Default::default()
@@ -101,7 +112,9 @@ pub fn run(a: CheckArgs) -> ExitCode {
         seam_analysis::analyze(&models, &proj.config)
     };
     let t_design = t_d0.elapsed();
-    analysis.findings.sort_by(|x, y| (&x.span.file, x.span.line, x.span.column).cmp(&(&y.span.file, y.span.line, y.span.column)));
+    analysis.findings.sort_by(|x, y| {
+        (&x.span.file, x.span.line, x.span.column).cmp(&(&y.span.file, y.span.line, y.span.column))
+    });
     let findings = &analysis.findings;
     let modules: usize = models.iter().map(|m| m.modules.len()).sum();
     if a.timings {
@@ -123,7 +136,10 @@ pub fn run(a: CheckArgs) -> ExitCode {
         }
     }
     match a.format {
-        Format::Sarif => println!("{}", output::sarif::render(&analysis, &proj.config, &read_src, &proj.root)),
+        Format::Sarif => println!(
+            "{}",
+            output::sarif::render(&analysis, &proj.config, &read_src, &proj.root)
+        ),
         Format::Json => {
             let v = output::json::analysis_report(&analysis);
             println!("{}", serde_json::to_string_pretty(&v).unwrap_or_default());
@@ -131,7 +147,11 @@ pub fn run(a: CheckArgs) -> ExitCode {
         Format::Human => {
             let choice = match a.color {
                 Color::Auto => {
-                    if std::io::IsTerminal::is_terminal(&std::io::stdout()) { ColorChoice::Auto } else { ColorChoice::Never }
+                    if std::io::IsTerminal::is_terminal(&std::io::stdout()) {
+                        ColorChoice::Auto
+                    } else {
+                        ColorChoice::Never
+                    }
                 }
                 Color::Always => ColorChoice::Always,
                 Color::Never => ColorChoice::Never,
@@ -142,9 +162,20 @@ pub fn run(a: CheckArgs) -> ExitCode {
                 let read = move |name: &str| std::fs::read_to_string(root.join(name)).ok();
                 let _ = output::human::render(&mut out, findings, &read);
             }
-            println!("seam: {} files, {} modules: {}", models.len(), modules, output::human::summary(findings));
+            println!(
+                "seam: {} files, {} modules: {}",
+                models.len(),
+                modules,
+                output::human::summary(findings)
+            );
         }
     }
-    let errors = findings.iter().any(|f| !f.waived && f.severity == Severity::Error);
-    if errors { ExitCode::from(1) } else { ExitCode::SUCCESS }
+    let errors = findings
+        .iter()
+        .any(|f| !f.waived && f.severity == Severity::Error);
+    if errors {
+        ExitCode::from(1)
+    } else {
+        ExitCode::SUCCESS
+    }
 }

@@ -30,8 +30,16 @@ pub fn run(a: DomainsArgs) -> ExitCode {
         Ok(p) => p,
         Err(e) => return super::usage_error(e.0),
     };
-    let jobs = std::thread::available_parallelism().map(|n| n.get()).unwrap_or(2);
-    let models = worker::parse_all(&proj.jobs, proj.macros.clone(), &proj.options, Duration::from_secs(60), jobs);
+    let jobs = std::thread::available_parallelism()
+        .map(|n| n.get())
+        .unwrap_or(2);
+    let models = worker::parse_all(
+        &proj.jobs,
+        proj.macros.clone(),
+        &proj.options,
+        Duration::from_secs(60),
+        jobs,
+    );
     let an = seam_analysis::analyze(&models, &proj.config);
     let edge = |e: seam_analysis::model::Edge| match e {
         seam_analysis::model::Edge::Posedge => "posedge",
@@ -59,7 +67,10 @@ pub fn run(a: DomainsArgs) -> ExitCode {
         DomainsFormat::Human => {
             println!("clocks:");
             for c in &an.clocks {
-                let f = c.frequency_hz.map(seam_analysis::config::format_frequency).unwrap_or_else(|| "frequency unknown".into());
+                let f = c
+                    .frequency_hz
+                    .map(seam_analysis::config::format_frequency)
+                    .unwrap_or_else(|| "frequency unknown".into());
                 println!("  {:<16} {:<14} domain {}", c.name, f, c.domain);
             }
             println!("registers:");

@@ -41,12 +41,19 @@ pub const SUMMARIES: &[(&str, &str)] = &[
 
 /// The one-line summary of a rule ("" for an unknown id).
 pub fn summary(rule: &str) -> &'static str {
-    SUMMARIES.iter().find(|(id, _)| *id == rule).map(|(_, s)| *s).unwrap_or("")
+    SUMMARIES
+        .iter()
+        .find(|(id, _)| *id == rule)
+        .map(|(_, s)| *s)
+        .unwrap_or("")
 }
 
 /// The embedded page docs/rules/<id>.md, when it existed at build time.
 pub fn page(rule: &str) -> Option<&'static str> {
-    pages::RULE_DOCS.iter().find(|(id, _)| *id == rule).map(|(_, t)| *t)
+    pages::RULE_DOCS
+        .iter()
+        .find(|(id, _)| *id == rule)
+        .map(|(_, t)| *t)
 }
 
 fn known(rule: &str) -> bool {
@@ -63,7 +70,10 @@ pub fn run(a: ExplainArgs) -> ExitCode {
     let rule = rule.trim();
     if !known(rule) {
         let ids: Vec<&str> = RULES.iter().map(|(id, _)| *id).collect();
-        return super::usage_error(format!("unknown rule \"{rule}\"; rules: {}", ids.join(", ")));
+        return super::usage_error(format!(
+            "unknown rule \"{rule}\"; rules: {}",
+            ids.join(", ")
+        ));
     }
     match page(rule) {
         Some(text) => {

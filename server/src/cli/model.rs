@@ -23,7 +23,13 @@ pub fn run(a: ModelArgs) -> ExitCode {
         Ok(p) => p,
         Err(e) => return super::usage_error(e.0),
     };
-    let models = worker::parse_all(&proj.jobs, proj.macros.clone(), &proj.options, Duration::from_secs(60), 2);
+    let models = worker::parse_all(
+        &proj.jobs,
+        proj.macros.clone(),
+        &proj.options,
+        Duration::from_secs(60),
+        2,
+    );
     match serde_json::to_string_pretty(&models) {
         Ok(s) => {
             println!("{s}");

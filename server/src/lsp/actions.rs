@@ -4,8 +4,9 @@
 use std::collections::HashMap;
 
 use tower_lsp::lsp_types::{
-    CodeAction, CodeActionKind, CodeActionOrCommand, CodeActionParams, DocumentChanges, NumberOrString, OneOf,
-    OptionalVersionedTextDocumentIdentifier, Position, Range, TextDocumentEdit, TextEdit, WorkspaceEdit,
+    CodeAction, CodeActionKind, CodeActionOrCommand, CodeActionParams, DocumentChanges,
+    NumberOrString, OneOf, OptionalVersionedTextDocumentIdentifier, Position, Range,
+    TextDocumentEdit, TextEdit, WorkspaceEdit,
 };
 
 use super::documents::Encoding;
@@ -17,7 +18,9 @@ pub fn actions(p: &CodeActionParams, file: &FileSnap, _enc: Encoding) -> Vec<Cod
         if d.source.as_deref() != Some("seam") {
             continue;
         }
-        let Some(NumberOrString::String(rule)) = &d.code else { continue };
+        let Some(NumberOrString::String(rule)) = &d.code else {
+            continue;
+        };
         if rule == "syntax-error" || rule == "invalid-config" {
             continue;
         }
@@ -25,7 +28,12 @@ pub fn actions(p: &CodeActionParams, file: &FileSnap, _enc: Encoding) -> Vec<Cod
         if line >= file.text.len_lines() {
             continue;
         }
-        let indent: String = file.text.line(line).chars().take_while(|c| *c == ' ' || *c == '\t').collect();
+        let indent: String = file
+            .text
+            .line(line)
+            .chars()
+            .take_while(|c| *c == ' ' || *c == '\t')
+            .collect();
         let at = Position::new(line as u32, 0);
         let edit = TextEdit {
             range: Range { start: at, end: at },

@@ -6,8 +6,8 @@ use seam_analysis::finding::{Finding, Severity};
 use seam_analysis::model::Span;
 use serde_json::json;
 use tower_lsp::lsp_types::{
-    CodeDescription, Diagnostic, DiagnosticRelatedInformation, DiagnosticSeverity, Location, NumberOrString, Position,
-    Range, Url,
+    CodeDescription, Diagnostic, DiagnosticRelatedInformation, DiagnosticSeverity, Location,
+    NumberOrString, Position, Range, Url,
 };
 
 use super::documents::{self, Bias, Edit, Encoding};
@@ -27,15 +27,15 @@ pub fn span_range(view: Option<&TextView>, from_seq: u64, span: &Span, enc: Enco
     let Some(v) = view else {
         // no text at hand: code points stand in for the encoding's units
         let p = |l: u32, c: u32| Position::new(l.saturating_sub(1), c.saturating_sub(1));
-        return Range { start: p(span.line, span.column), end: p(span.end_line, span.end_column) };
+        return Range {
+            start: p(span.line, span.column),
+            end: p(span.end_line, span.end_column),
+        };
     };
     let edited = documents::edited_since(v.edits, from_seq);
-    let mapped = documents::map_offset(v.edits, from_seq, span.start, Bias::Start).zip(documents::map_offset(
-        v.edits,
-        from_seq,
-        span.end.max(span.start),
-        Bias::End,
-    ));
+    let mapped = documents::map_offset(v.edits, from_seq, span.start, Bias::Start).zip(
+        documents::map_offset(v.edits, from_seq, span.end.max(span.start), Bias::End),
+    );
     if let Some((s, e)) = mapped {
         let len = v.text.len_bytes();
         let plausible = s <= len
@@ -51,8 +51,16 @@ pub fn span_range(view: Option<&TextView>, from_seq: u64, span: &Span, enc: Enco
         }
     }
     let start = documents::line_col_to_position(v.text, span.line.max(1), span.column.max(1), enc);
-    let end = documents::line_col_to_position(v.text, span.end_line.max(span.line).max(1), span.end_column.max(1), enc);
-    Range { start, end: if end < start { start } else { end } }
+    let end = documents::line_col_to_position(
+        v.text,
+        span.end_line.max(span.line).max(1),
+        span.end_column.max(1),
+        enc,
+    );
+    Range {
+        start,
+        end: if end < start { start } else { end },
+    }
 }
 
 /// Per-rule documentation link: `<base><rule>.md`.
@@ -71,7 +79,8 @@ pub fn severity(s: Severity) -> DiagnosticSeverity {
 }
 
 /// Text appended to findings that come from the last version of a file that parsed.
-pub const STALE_NOTE: &str = " [from the last version of this file that parsed; it has a syntax error now]";
+pub const STALE_NOTE: &str =
+    " [from the last version of this file that parsed; it has a syntax error now]";
 
 /// A finding as a diagnostic. `related` is already placed; `stale` marks findings of a file
 /// whose current text does not parse (kept from its last good model).
@@ -97,7 +106,10 @@ pub fn diagnostic(
     }
     let related: Vec<DiagnosticRelatedInformation> = related
         .into_iter()
-        .map(|(uri, range, message)| DiagnosticRelatedInformation { location: Location { uri, range }, message })
+        .map(|(uri, range, message)| DiagnosticRelatedInformation {
+            location: Location { uri, range },
+            message,
+        })
         .collect();
     Diagnostic {
         range,
@@ -106,7 +118,11 @@ pub fn diagnostic(
         code_description: rule_doc(docs, &f.rule),
         source: Some("seam".into()),
         message,
-        related_information: if related.is_empty() { None } else { Some(related) },
+        related_information: if related.is_empty() {
+            None
+        } else {
+            Some(related)
+        },
         tags: None,
         // what code actions need without a second look-up
         data: Some(json!({
@@ -142,14 +158,20 @@ mod tests {
             text: "  // 𝄞 x\n".into(),
         };
         let e = documents::apply_change(&mut rope, &ch, Encoding::Utf16, 1);
-        let v = TextView { text: &rope, edits: &[e] };
+        let v = TextView {
+            text: &rope,
+            edits: &[e],
+        };
         let r = span_range(Some(&v), 0, &sp, Encoding::Utf16);
         assert_eq!(r, Range::new(Position::new(2, 7), Position::new(2, 8)));
         // a span whose offsets disagree with its line falls back to line and column
         let mut bad = sp.clone();
         bad.start = 0;
         bad.end = 0;
-        let v0 = TextView { text: &Rope::from_str(old), edits: &[] };
+        let v0 = TextView {
+            text: &Rope::from_str(old),
+            edits: &[],
+        };
         let r = span_range(Some(&v0), 0, &bad, Encoding::Utf16);
         assert_eq!(r.start, Position::new(1, 7));
     }

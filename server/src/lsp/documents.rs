@@ -30,7 +30,11 @@ pub struct Edit {
 
 /// Char index just past the content of `line` (before its line break).
 fn line_content_end(rope: &Rope, line: usize) -> usize {
-    let next = if line + 1 < rope.len_lines() { rope.line_to_char(line + 1) } else { rope.len_chars() };
+    let next = if line + 1 < rope.len_lines() {
+        rope.line_to_char(line + 1)
+    } else {
+        rope.len_chars()
+    };
     let start = rope.line_to_char(line);
     let mut end = next;
     if end > start && rope.char(end - 1) == '\n' {
@@ -75,7 +79,10 @@ pub fn char_to_position(rope: &Rope, ch: usize, enc: Encoding) -> Position {
         Encoding::Utf16 => rope.char_to_utf16_cu(ch) - rope.char_to_utf16_cu(start),
         Encoding::Utf8 => rope.char_to_byte(ch) - rope.char_to_byte(start),
     };
-    Position { line: line as u32, character: character as u32 }
+    Position {
+        line: line as u32,
+        character: character as u32,
+    }
 }
 
 /// A byte offset (rounded down to a char boundary, clamped to the text) to a position.
@@ -98,7 +105,12 @@ pub fn line_col_to_position(rope: &Rope, line: u32, column: u32, enc: Encoding) 
 
 /// Apply one `contentChanges` entry; returns the edit for the log. Positions past the end are
 /// clamped (LSP spec, "Position"); a range given end first is taken as the range between.
-pub fn apply_change(rope: &mut Rope, change: &TextDocumentContentChangeEvent, enc: Encoding, seq: u64) -> Edit {
+pub fn apply_change(
+    rope: &mut Rope,
+    change: &TextDocumentContentChangeEvent,
+    enc: Encoding,
+    seq: u64,
+) -> Edit {
     match change.range {
         Some(r) => {
             let a = position_to_char(rope, r.start, enc);
@@ -108,12 +120,24 @@ pub fn apply_change(rope: &mut Rope, change: &TextDocumentContentChangeEvent, en
             let old_end = rope.char_to_byte(b);
             rope.remove(a..b);
             rope.insert(a, &change.text);
-            Edit { seq, start, old_end, new_len: change.text.len(), whole: false }
+            Edit {
+                seq,
+                start,
+                old_end,
+                new_len: change.text.len(),
+                whole: false,
+            }
         }
         None => {
             let old = rope.len_bytes();
             *rope = Rope::from_str(&change.text);
-            Edit { seq, start: 0, old_end: old, new_len: change.text.len(), whole: true }
+            Edit {
+                seq,
+                start: 0,
+                old_end: old,
+                new_len: change.text.len(),
+                whole: true,
+            }
         }
     }
 }
@@ -186,7 +210,10 @@ mod tests {
 
     fn change(sl: u32, sc: u32, el: u32, ec: u32, text: &str) -> TextDocumentContentChangeEvent {
         TextDocumentContentChangeEvent {
-            range: Some(Range { start: Position::new(sl, sc), end: Position::new(el, ec) }),
+            range: Some(Range {
+                start: Position::new(sl, sc),
+                end: Position::new(el, ec),
+            }),
             range_length: None,
             text: text.into(),
         }
@@ -197,8 +224,14 @@ mod tests {
         // LSP spec, "Text Documents": EOL is \n, \r\n or \r; form feed and U+2028 are text
         let r = Rope::from_str("a\u{000C}b\u{2028}c\r\nd\re\nf");
         assert_eq!(r.len_lines(), 4);
-        assert_eq!(char_to_position(&r, r.len_chars() - 1, Encoding::Utf16), Position::new(3, 0));
-        assert_eq!(position_to_char(&r, Position::new(0, 99), Encoding::Utf16), 5);
+        assert_eq!(
+            char_to_position(&r, r.len_chars() - 1, Encoding::Utf16),
+            Position::new(3, 0)
+        );
+        assert_eq!(
+            position_to_char(&r, Position::new(0, 99), Encoding::Utf16),
+            5
+        );
         // before \r\n
     }
 
@@ -207,9 +240,15 @@ mod tests {
         // "é" is 1 UTF-16 unit and 2 UTF-8 bytes; "𝄞" is 2 UTF-16 units and 4 bytes
         let r = Rope::from_str("é𝄞x\n");
         let x = 2; // char index of 'x'
-        assert_eq!(char_to_position(&r, x, Encoding::Utf16), Position::new(0, 3));
+        assert_eq!(
+            char_to_position(&r, x, Encoding::Utf16),
+            Position::new(0, 3)
+        );
         assert_eq!(char_to_position(&r, x, Encoding::Utf8), Position::new(0, 6));
-        assert_eq!(position_to_char(&r, Position::new(0, 3), Encoding::Utf16), x);
+        assert_eq!(
+            position_to_char(&r, Position::new(0, 3), Encoding::Utf16),
+            x
+        );
         assert_eq!(position_to_char(&r, Position::new(0, 6), Encoding::Utf8), x);
     }
 

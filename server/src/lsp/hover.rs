@@ -67,7 +67,9 @@ fn register_lines(a: &Analysis, r: &RegisterInfo, figures: &mut bool) -> Vec<Str
         }
         (None, Some(clk)) => out.push(format!("Clock `{clk}`, {} (no domain)", edge_word(r.edge))),
         (Some(d), None) => out.push(format!("Domain **`{d}`**")),
-        (None, None) => out.push("Domain: not known (its clock could not be traced to a root)".into()),
+        (None, None) => {
+            out.push("Domain: not known (its clock could not be traced to a root)".into())
+        }
     }
     out.push("Kind: register".into());
     if let Some(q) = &r.derived_from {
@@ -85,7 +87,12 @@ fn register_lines(a: &Analysis, r: &RegisterInfo, figures: &mut bool) -> Vec<Str
 
 fn signal_lines(a: &Analysis, s: &SignalInfo, figures: &mut bool) -> Vec<String> {
     let mut out = Vec::new();
-    let doms = s.domains.iter().map(|d| format!("`{d}`")).collect::<Vec<_>>().join(", ");
+    let doms = s
+        .domains
+        .iter()
+        .map(|d| format!("`{d}`"))
+        .collect::<Vec<_>>()
+        .join(", ");
     match s.kind {
         SignalKind::Register => {
             out.push("Kind: register".into());
@@ -113,8 +120,11 @@ fn signal_lines(a: &Analysis, s: &SignalInfo, figures: &mut bool) -> Vec<String>
             out.push("Kind: clock".into());
             // root and frequency from the clock table; how many registers it clocks here and
             // whether it is derived or gated come with the analysis' notes for the instance
-            let clocks: Vec<&ClockInfo> =
-                a.clocks.iter().filter(|c| s.domains.contains(&c.domain) || s.domains.contains(&c.name)).collect();
+            let clocks: Vec<&ClockInfo> = a
+                .clocks
+                .iter()
+                .filter(|c| s.domains.contains(&c.domain) || s.domains.contains(&c.name))
+                .collect();
             for c in clocks {
                 let mut line = format!("Clock `{}` (root `{}`)", c.name, c.root);
                 if let Some(f) = c.frequency_hz {
@@ -134,7 +144,11 @@ fn signal_lines(a: &Analysis, s: &SignalInfo, figures: &mut bool) -> Vec<String>
 
 /// Lowercase words, without Markdown marks and punctuation, for comparing lines.
 fn normalized(s: &str) -> String {
-    let kept: String = s.chars().filter(|c| !"`*:,;.".contains(*c)).collect::<String>().to_lowercase();
+    let kept: String = s
+        .chars()
+        .filter(|c| !"`*:,;.".contains(*c))
+        .collect::<String>()
+        .to_lowercase();
     kept.split_whitespace().collect::<Vec<_>>().join(" ")
 }
 
@@ -184,7 +198,9 @@ fn local_lines(m: &Module, name: &str) -> Option<Vec<String>> {
     let mut comb = false;
     for it in &items {
         match &it.kind {
-            ItemKind::Process(p) if p.assigns.iter().any(|a| a.target.base_name() == Some(name)) => {
+            ItemKind::Process(p)
+                if p.assigns.iter().any(|a| a.target.base_name() == Some(name)) =>
+            {
                 known = true;
                 match &p.clock {
                     Some(ev) => {
@@ -224,7 +240,13 @@ fn local_lines(m: &Module, name: &str) -> Option<Vec<String>> {
     Some(out)
 }
 
-pub fn hover(design: &DesignSnap, key: &Url, file: &FileSnap, pos: Position, enc: Encoding) -> Option<Hover> {
+pub fn hover(
+    design: &DesignSnap,
+    key: &Url,
+    file: &FileSnap,
+    pos: Position,
+    enc: Encoding,
+) -> Option<Hover> {
     let ch = documents::position_to_char(&file.text, pos, enc);
     let (ws, we) = documents::word_at(&file.text, ch)?;
     let name = file.text.slice(ws..we).to_string();
@@ -233,7 +255,10 @@ pub fn hover(design: &DesignSnap, key: &Url, file: &FileSnap, pos: Position, enc
         end: documents::char_to_position(&file.text, we, enc),
     };
     let df = design.files.get(key)?;
-    let view = TextView { text: &file.text, edits: &file.edits };
+    let view = TextView {
+        text: &file.text,
+        edits: &file.edits,
+    };
     let module = module_at(&df.model.modules, &view, df.good_seq, pos, enc)?;
     let a = &design.analysis;
 
@@ -241,16 +266,28 @@ pub fn hover(design: &DesignSnap, key: &Url, file: &FileSnap, pos: Position, enc
     let mut figures = false;
     let mut groups: BTreeMap<Vec<String>, Vec<String>> = BTreeMap::new();
     let mut kind_word = "";
-    for r in a.registers.iter().filter(|r| r.module == module.name && r.signal == name) {
+    for r in a
+        .registers
+        .iter()
+        .filter(|r| r.module == module.name && r.signal == name)
+    {
         kind_word = "register";
         let mut lines = register_lines(a, r, &mut figures);
-        if let Some(s) = a.signals.iter().find(|s| s.instance == r.instance && s.module == r.module && s.name == name) {
+        if let Some(s) = a
+            .signals
+            .iter()
+            .find(|s| s.instance == r.instance && s.module == r.module && s.name == name)
+        {
             add_notes(&mut lines, &s.notes, &mut figures);
         }
         groups.entry(lines).or_default().push(r.instance.clone());
     }
     if groups.is_empty() {
-        for s in a.signals.iter().filter(|s| s.module == module.name && s.name == name) {
+        for s in a
+            .signals
+            .iter()
+            .filter(|s| s.module == module.name && s.name == name)
+        {
             kind_word = match s.kind {
                 SignalKind::Register => "register",
                 SignalKind::Combinational => "net",
@@ -269,14 +306,28 @@ pub fn hover(design: &DesignSnap, key: &Url, file: &FileSnap, pos: Position, enc
             md.push_str(&format!("- {l}\n"));
         }
     } else {
-        md.push_str(&format!("**`{name}`** · {kind_word} in module `{}`\n", module.name));
+        md.push_str(&format!(
+            "**`{name}`** · {kind_word} in module `{}`\n",
+            module.name
+        ));
         let several = groups.len() > 1;
         for (lines, mut instances) in groups {
             instances.sort();
             let shown: Vec<String> = instances.iter().take(4).map(|i| format!("`{i}`")).collect();
             let more = instances.len().saturating_sub(4);
-            let inst = if more > 0 { format!("{} and {more} more", shown.join(", ")) } else { shown.join(", ") };
-            md.push_str(&format!("\n{} {inst}\n\n", if instances.len() == 1 { "Instance" } else { "Instances" }));
+            let inst = if more > 0 {
+                format!("{} and {more} more", shown.join(", "))
+            } else {
+                shown.join(", ")
+            };
+            md.push_str(&format!(
+                "\n{} {inst}\n\n",
+                if instances.len() == 1 {
+                    "Instance"
+                } else {
+                    "Instances"
+                }
+            ));
             for l in lines {
                 md.push_str(&format!("- {l}\n"));
             }
@@ -286,11 +337,23 @@ pub fn hover(design: &DesignSnap, key: &Url, file: &FileSnap, pos: Position, enc
         }
     }
     if df.stale {
-        md.push_str("\n_This file does not parse now: the facts are from its last version that did._\n");
+        md.push_str(
+            "\n_This file does not parse now: the facts are from its last version that did._\n",
+        );
     }
-    md.push_str(&format!("\n---\n_{FOOTER}{}_\n", if figures { format!(" {FIGURES}") } else { String::new() }));
+    md.push_str(&format!(
+        "\n---\n_{FOOTER}{}_\n",
+        if figures {
+            format!(" {FIGURES}")
+        } else {
+            String::new()
+        }
+    ));
     Some(Hover {
-        contents: HoverContents::Markup(MarkupContent { kind: MarkupKind::Markdown, value: md }),
+        contents: HoverContents::Markup(MarkupContent {
+            kind: MarkupKind::Markdown,
+            value: md,
+        }),
         range: Some(range),
     })
 }

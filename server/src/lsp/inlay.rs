@@ -12,7 +12,10 @@ use super::state::{DesignSnap, FileSnap};
 
 /// Just after `name` inside the (current) range of `span`; the span's end when it is not there.
 pub fn after_name(file: &FileSnap, seq: u64, span: &Span, name: &str, enc: Encoding) -> Position {
-    let view = TextView { text: &file.text, edits: &file.edits };
+    let view = TextView {
+        text: &file.text,
+        edits: &file.edits,
+    };
     let r = span_range(Some(&view), seq, span, enc);
     let a = documents::position_to_char(&file.text, r.start, enc);
     let b = documents::position_to_char(&file.text, r.end, enc).max(a);
@@ -57,7 +60,9 @@ pub fn local_registers(m: &Module) -> BTreeMap<String, BTreeSet<String>> {
         for a in &p.assigns {
             if let Some(n) = a.target.base_name() {
                 if !p.locals.iter().any(|l| l == n) {
-                    out.entry(n.to_string()).or_default().insert(format!("{e}{}", render(&ev.signal)));
+                    out.entry(n.to_string())
+                        .or_default()
+                        .insert(format!("{e}{}", render(&ev.signal)));
                 }
             }
         }
@@ -65,8 +70,16 @@ pub fn local_registers(m: &Module) -> BTreeMap<String, BTreeSet<String>> {
     out
 }
 
-pub fn hints(design: &DesignSnap, key: &Url, file: &FileSnap, range: Range, enc: Encoding) -> Vec<InlayHint> {
-    let Some(df) = design.files.get(key) else { return vec![] };
+pub fn hints(
+    design: &DesignSnap,
+    key: &Url,
+    file: &FileSnap,
+    range: Range,
+    enc: Encoding,
+) -> Vec<InlayHint> {
+    let Some(df) = design.files.get(key) else {
+        return vec![];
+    };
     let a = &design.analysis;
     let mut out = Vec::new();
     for m in &df.model.modules {
@@ -78,9 +91,15 @@ pub fn hints(design: &DesignSnap, key: &Url, file: &FileSnap, range: Range, enc:
                 if r.span.file != df.display {
                     continue;
                 }
-                let span = declaration(m, &r.signal).cloned().unwrap_or_else(|| r.span.clone());
+                let span = declaration(m, &r.signal)
+                    .cloned()
+                    .unwrap_or_else(|| r.span.clone());
                 let d = r.domain.clone().unwrap_or_else(|| "no domain".into());
-                by_decl.entry((span.start, r.signal.clone())).or_insert_with(|| (span, BTreeSet::new())).1.insert(d);
+                by_decl
+                    .entry((span.start, r.signal.clone()))
+                    .or_insert_with(|| (span, BTreeSet::new()))
+                    .1
+                    .insert(d);
             }
             for ((_, name), (span, doms)) in by_decl {
                 let pos = after_name(file, df.good_seq, &span, &name, enc);
@@ -88,12 +107,17 @@ pub fn hints(design: &DesignSnap, key: &Url, file: &FileSnap, range: Range, enc:
                 out.push(hint(
                     pos,
                     format!("‹{label}›"),
-                    format!("Clock domain of register `{name}` (every instance of `{}`)", m.name),
+                    format!(
+                        "Clock domain of register `{name}` (every instance of `{}`)",
+                        m.name
+                    ),
                 ));
             }
         } else {
             for (name, events) in local_registers(m) {
-                let Some(span) = declaration(m, &name) else { continue };
+                let Some(span) = declaration(m, &name) else {
+                    continue;
+                };
                 let pos = after_name(file, df.good_seq, span, &name, enc);
                 let label = events.iter().cloned().collect::<Vec<_>>().join(" | ");
                 out.push(hint(

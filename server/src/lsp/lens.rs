@@ -18,28 +18,40 @@ use super::CMD_MODULE;
 /// is inside the module's text.
 pub fn crossings_into<'a>(design: &'a DesignSnap, module: &str) -> Vec<&'a Crossing> {
     let a = &design.analysis;
-    let regs: Vec<String> =
-        a.registers.iter().filter(|r| r.module == module).map(|r| format!("{}.{}", r.instance, r.signal)).collect();
+    let regs: Vec<String> = a
+        .registers
+        .iter()
+        .filter(|r| r.module == module)
+        .map(|r| format!("{}.{}", r.instance, r.signal))
+        .collect();
     let same_path = |full: &str, other: &str| {
-        full == other || full.ends_with(&format!(".{other}")) || other.ends_with(&format!(".{full}"))
+        full == other
+            || full.ends_with(&format!(".{other}"))
+            || other.ends_with(&format!(".{full}"))
     };
     let inside = |c: &Crossing| {
         design.files.values().any(|f| {
             f.display == c.span.file
-                && f.model
-                    .modules
-                    .iter()
-                    .any(|m| m.name == module && m.span.start <= c.span.start && c.span.end <= m.span.end)
+                && f.model.modules.iter().any(|m| {
+                    m.name == module && m.span.start <= c.span.start && c.span.end <= m.span.end
+                })
         })
     };
-    a.crossings.iter().filter(|c| regs.iter().any(|r| same_path(r, &c.destination)) || inside(c)).collect()
+    a.crossings
+        .iter()
+        .filter(|c| regs.iter().any(|r| same_path(r, &c.destination)) || inside(c))
+        .collect()
 }
 
 fn plural(n: usize, one: &str, many: &str) -> String {
     format!("{n} {}", if n == 1 { one } else { many })
 }
 
-pub fn title(design: &DesignSnap, module: &str, local: &BTreeMap<String, BTreeSet<String>>) -> String {
+pub fn title(
+    design: &DesignSnap,
+    module: &str,
+    local: &BTreeMap<String, BTreeSet<String>>,
+) -> String {
     let a = &design.analysis;
     let regs: Vec<_> = a.registers.iter().filter(|r| r.module == module).collect();
     if regs.is_empty() {
@@ -50,19 +62,35 @@ pub fn title(design: &DesignSnap, module: &str, local: &BTreeMap<String, BTreeSe
         let list = clocks.into_iter().cloned().collect::<Vec<_>>().join(", ");
         return format!("written on {list} · domains not known yet (no analysed instance)");
     }
-    let doms: BTreeSet<String> = regs.iter().map(|r| r.domain.clone().unwrap_or_else(|| "no domain".into())).collect();
+    let doms: BTreeSet<String> = regs
+        .iter()
+        .map(|r| r.domain.clone().unwrap_or_else(|| "no domain".into()))
+        .collect();
     let dom_text = format!(
         "{}: {}",
-        if doms.len() == 1 { "1 domain" } else { "domains" },
+        if doms.len() == 1 {
+            "1 domain"
+        } else {
+            "domains"
+        },
         doms.into_iter().collect::<Vec<_>>().join(", ")
     );
     let cs = crossings_into(design, module);
     if cs.is_empty() {
         return format!("{dom_text} · no crossings in");
     }
-    let unsafe_n = cs.iter().filter(|c| c.status == CrossingStatus::Unsafe).count();
-    let sync_n = cs.iter().filter(|c| c.status == CrossingStatus::Synchronized).count();
-    let waived_n = cs.iter().filter(|c| c.status == CrossingStatus::Waived).count();
+    let unsafe_n = cs
+        .iter()
+        .filter(|c| c.status == CrossingStatus::Unsafe)
+        .count();
+    let sync_n = cs
+        .iter()
+        .filter(|c| c.status == CrossingStatus::Synchronized)
+        .count();
+    let waived_n = cs
+        .iter()
+        .filter(|c| c.status == CrossingStatus::Waived)
+        .count();
     let mut parts = Vec::new();
     if unsafe_n > 0 {
         parts.push(format!("{unsafe_n} unsafe"));
@@ -73,12 +101,27 @@ pub fn title(design: &DesignSnap, module: &str, local: &BTreeMap<String, BTreeSe
     if waived_n > 0 {
         parts.push(format!("{waived_n} waived"));
     }
-    format!("{dom_text} · {} in ({})", plural(cs.len(), "crossing", "crossings"), parts.join(", "))
+    format!(
+        "{dom_text} · {} in ({})",
+        plural(cs.len(), "crossing", "crossings"),
+        parts.join(", ")
+    )
 }
 
-pub fn lenses(design: &DesignSnap, key: &Url, uri: &Url, file: &FileSnap, enc: Encoding) -> Vec<CodeLens> {
-    let Some(df) = design.files.get(key) else { return vec![] };
-    let view = TextView { text: &file.text, edits: &file.edits };
+pub fn lenses(
+    design: &DesignSnap,
+    key: &Url,
+    uri: &Url,
+    file: &FileSnap,
+    enc: Encoding,
+) -> Vec<CodeLens> {
+    let Some(df) = design.files.get(key) else {
+        return vec![];
+    };
+    let view = TextView {
+        text: &file.text,
+        edits: &file.edits,
+    };
     df.model
         .modules
         .iter()
@@ -102,7 +145,10 @@ pub fn lenses(design: &DesignSnap, key: &Url, uri: &Url, file: &FileSnap, enc: E
 pub fn module_crossings(design: &DesignSnap, module: &str) -> (String, Value) {
     let cs = crossings_into(design, module);
     if cs.is_empty() {
-        return (format!("Seam: no domain crossings end in module {module}."), json!([]));
+        return (
+            format!("Seam: no domain crossings end in module {module}."),
+            json!([]),
+        );
     }
     let mut lines = vec![format!("Seam: crossings into module {module}:")];
     let mut list = Vec::new();
@@ -112,7 +158,11 @@ pub fn module_crossings(design: &DesignSnap, module: &str) -> (String, Value) {
             CrossingStatus::Synchronized => "synchronized",
             CrossingStatus::Waived => "waived",
         };
-        let how = c.scheme.clone().map(|s| format!(", {s}")).unwrap_or_default();
+        let how = c
+            .scheme
+            .clone()
+            .map(|s| format!(", {s}"))
+            .unwrap_or_default();
         lines.push(format!(
             "{} ({}) → {} ({}): {status}{how}",
             c.source, c.source_domain, c.destination, c.destination_domain

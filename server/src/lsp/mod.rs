@@ -88,7 +88,10 @@ impl Backend {
 }
 
 fn negotiate(caps: &ClientCapabilities) -> Encoding {
-    let offered = caps.general.as_ref().and_then(|g| g.position_encodings.as_ref());
+    let offered = caps
+        .general
+        .as_ref()
+        .and_then(|g| g.position_encodings.as_ref());
     match offered {
         Some(list) if list.contains(&PositionEncodingKind::UTF8) => Encoding::Utf8,
         _ => Encoding::Utf16,
@@ -120,11 +123,23 @@ impl LanguageServer for Backend {
             settings.apply(o);
         }
         let root = root_of(&params);
-        if params.workspace_folders.as_ref().is_some_and(|f| f.len() > 1) {
-            tracing::warn!("several workspace folders: the design is read from the first, {}", root.display());
+        if params
+            .workspace_folders
+            .as_ref()
+            .is_some_and(|f| f.len() > 1)
+        {
+            tracing::warn!(
+                "several workspace folders: the design is read from the first, {}",
+                root.display()
+            );
         }
         tracing::info!("root {}, position encoding {:?}", root.display(), enc);
-        let progress = params.capabilities.window.as_ref().and_then(|w| w.work_done_progress).unwrap_or(false);
+        let progress = params
+            .capabilities
+            .window
+            .as_ref()
+            .and_then(|w| w.work_done_progress)
+            .unwrap_or(false);
         let _ = self.caps.set(params.capabilities.clone());
         if self.running.get().is_none() {
             let shared = Arc::new(Shared::new(enc, settings.clone()));
@@ -148,23 +163,32 @@ impl LanguageServer for Backend {
             Encoding::Utf16 => PositionEncodingKind::UTF16,
         };
         Ok(InitializeResult {
-            server_info: Some(ServerInfo { name: "seam".into(), version: Some(env!("CARGO_PKG_VERSION").into()) }),
+            server_info: Some(ServerInfo {
+                name: "seam".into(),
+                version: Some(env!("CARGO_PKG_VERSION").into()),
+            }),
             capabilities: ServerCapabilities {
                 position_encoding: Some(kind),
-                text_document_sync: Some(TextDocumentSyncCapability::Options(TextDocumentSyncOptions {
-                    open_close: Some(true),
-                    change: Some(TextDocumentSyncKind::INCREMENTAL),
-                    will_save: None,
-                    will_save_wait_until: None,
-                    save: Some(TextDocumentSyncSaveOptions::Supported(true)),
-                })),
+                text_document_sync: Some(TextDocumentSyncCapability::Options(
+                    TextDocumentSyncOptions {
+                        open_close: Some(true),
+                        change: Some(TextDocumentSyncKind::INCREMENTAL),
+                        will_save: None,
+                        will_save_wait_until: None,
+                        save: Some(TextDocumentSyncSaveOptions::Supported(true)),
+                    },
+                )),
                 hover_provider: Some(HoverProviderCapability::Simple(true)),
-                code_action_provider: Some(CodeActionProviderCapability::Options(CodeActionOptions {
-                    code_action_kinds: Some(vec![CodeActionKind::QUICKFIX]),
-                    ..CodeActionOptions::default()
-                })),
+                code_action_provider: Some(CodeActionProviderCapability::Options(
+                    CodeActionOptions {
+                        code_action_kinds: Some(vec![CodeActionKind::QUICKFIX]),
+                        ..CodeActionOptions::default()
+                    },
+                )),
                 inlay_hint_provider: Some(OneOf::Left(true)),
-                code_lens_provider: Some(CodeLensOptions { resolve_provider: Some(false) }),
+                code_lens_provider: Some(CodeLensOptions {
+                    resolve_provider: Some(false),
+                }),
                 execute_command_provider: Some(ExecuteCommandOptions {
                     commands: vec![CMD_REANALYZE.into(), CMD_MODULE.into()],
                     ..ExecuteCommandOptions::default()
@@ -186,7 +210,10 @@ impl LanguageServer for Backend {
         let caps = self.caps.get().cloned().unwrap_or_default();
         let ws = caps.workspace.unwrap_or_default();
         let client = self.client.clone();
-        let dynamic_watch = ws.did_change_watched_files.and_then(|w| w.dynamic_registration).unwrap_or(false);
+        let dynamic_watch = ws
+            .did_change_watched_files
+            .and_then(|w| w.dynamic_registration)
+            .unwrap_or(false);
         let pull_config = ws.configuration.unwrap_or(false);
         let tx = self.running.get().map(|r| r.tx.clone());
         // client requests are awaited only from spawned tasks
@@ -220,7 +247,11 @@ impl LanguageServer for Backend {
 
     async fn did_open(&self, p: DidOpenTextDocumentParams) {
         let d = p.text_document;
-        self.send(Event::Open { uri: d.uri, version: d.version, text: d.text });
+        self.send(Event::Open {
+            uri: d.uri,
+            version: d.version,
+            text: d.text,
+        });
     }
 
     async fn did_change(&self, p: DidChangeTextDocumentParams) {
@@ -232,14 +263,19 @@ impl LanguageServer for Backend {
     }
 
     async fn did_close(&self, p: DidCloseTextDocumentParams) {
-        self.send(Event::Close { uri: p.text_document.uri });
+        self.send(Event::Close {
+            uri: p.text_document.uri,
+        });
     }
 
     async fn did_save(&self, p: DidSaveTextDocumentParams) {
         // the buffer already counts for itself; what a save changes for others (an included
         // header, seam.toml, a filelist) is what a watched-file change would, for clients
         // that do not watch files
-        let ev = FileEvent { uri: p.text_document.uri, typ: FileChangeType::CHANGED };
+        let ev = FileEvent {
+            uri: p.text_document.uri,
+            typ: FileChangeType::CHANGED,
+        };
         self.send(Event::Watched(vec![ev]));
     }
 
@@ -253,7 +289,12 @@ impl LanguageServer for Backend {
             self.send(Event::Settings(p.settings));
             return;
         }
-        let pull = self.caps.get().and_then(|c| c.workspace.as_ref()).and_then(|w| w.configuration).unwrap_or(false);
+        let pull = self
+            .caps
+            .get()
+            .and_then(|c| c.workspace.as_ref())
+            .and_then(|w| w.configuration)
+            .unwrap_or(false);
         if pull {
             let client = self.client.clone();
             let tx = self.running.get().map(|r| r.tx.clone());
@@ -270,33 +311,67 @@ impl LanguageServer for Backend {
     }
 
     async fn hover(&self, p: HoverParams) -> RpcResult<Option<Hover>> {
-        let Some(sh) = self.shared() else { return Ok(None) };
+        let Some(sh) = self.shared() else {
+            return Ok(None);
+        };
         let key = key_of(&p.text_document_position_params.text_document.uri);
-        let (Some(file), design) = (sh.file(&key), sh.design()) else { return Ok(None) };
-        Ok(hover::hover(&design, &key, &file, p.text_document_position_params.position, sh.encoding))
+        let (Some(file), design) = (sh.file(&key), sh.design()) else {
+            return Ok(None);
+        };
+        Ok(hover::hover(
+            &design,
+            &key,
+            &file,
+            p.text_document_position_params.position,
+            sh.encoding,
+        ))
     }
 
     async fn inlay_hint(&self, p: InlayHintParams) -> RpcResult<Option<Vec<InlayHint>>> {
-        let Some(sh) = self.shared() else { return Ok(None) };
+        let Some(sh) = self.shared() else {
+            return Ok(None);
+        };
         if !sh.settings().inlay_hints {
             return Ok(Some(vec![]));
         }
         let key = key_of(&p.text_document.uri);
-        let (Some(file), design) = (sh.file(&key), sh.design()) else { return Ok(None) };
-        Ok(Some(inlay::hints(&design, &key, &file, p.range, sh.encoding)))
+        let (Some(file), design) = (sh.file(&key), sh.design()) else {
+            return Ok(None);
+        };
+        Ok(Some(inlay::hints(
+            &design,
+            &key,
+            &file,
+            p.range,
+            sh.encoding,
+        )))
     }
 
     async fn code_lens(&self, p: CodeLensParams) -> RpcResult<Option<Vec<CodeLens>>> {
-        let Some(sh) = self.shared() else { return Ok(None) };
+        let Some(sh) = self.shared() else {
+            return Ok(None);
+        };
         let key = key_of(&p.text_document.uri);
-        let (Some(file), design) = (sh.file(&key), sh.design()) else { return Ok(None) };
-        Ok(Some(lens::lenses(&design, &key, &p.text_document.uri, &file, sh.encoding)))
+        let (Some(file), design) = (sh.file(&key), sh.design()) else {
+            return Ok(None);
+        };
+        Ok(Some(lens::lenses(
+            &design,
+            &key,
+            &p.text_document.uri,
+            &file,
+            sh.encoding,
+        )))
     }
 
     async fn code_action(&self, p: CodeActionParams) -> RpcResult<Option<CodeActionResponse>> {
-        let Some(sh) = self.shared() else { return Ok(None) };
+        let Some(sh) = self.shared() else {
+            return Ok(None);
+        };
         let key = key_of(&p.text_document.uri);
-        let Some(file) = sh.file(&key) else { return Ok(None) };
+        let Some(file) = sh.file(&key) else {
+            return Ok(None);
+        };
         Ok(Some(actions::actions(&p, &file, sh.encoding)))
     }
 
@@ -307,8 +382,15 @@ impl LanguageServer for Backend {
                 Ok(None)
             }
             CMD_MODULE => {
-                let Some(sh) = self.shared() else { return Ok(None) };
-                let module = p.arguments.get(1).and_then(Value::as_str).unwrap_or_default().to_string();
+                let Some(sh) = self.shared() else {
+                    return Ok(None);
+                };
+                let module = p
+                    .arguments
+                    .get(1)
+                    .and_then(Value::as_str)
+                    .unwrap_or_default()
+                    .to_string();
                 let design = sh.design();
                 let (text, list) = lens::module_crossings(&design, &module);
                 self.client.show_message(MessageType::INFO, text).await;
@@ -321,7 +403,10 @@ impl LanguageServer for Backend {
 
 /// Settings from the client's `seam` configuration section.
 async fn fetch_config(client: &Client, tx: Option<mpsc::Sender<Event>>) {
-    let item = ConfigurationItem { scope_uri: None, section: Some("seam".into()) };
+    let item = ConfigurationItem {
+        scope_uri: None,
+        section: Some("seam".into()),
+    };
     match client.configuration(vec![item]).await {
         Ok(mut v) => {
             if let (Some(first), Some(tx)) = (v.pop(), tx) {
@@ -336,22 +421,39 @@ async fn fetch_config(client: &Client, tx: Option<mpsc::Sender<Event>>) {
 
 fn refresh_support(c: &ClientCapabilities) -> (bool, bool) {
     let ws = c.workspace.as_ref();
-    let inlay = ws.and_then(|w| w.inlay_hint.as_ref()).and_then(|i| i.refresh_support).unwrap_or(false);
-    let lens = ws.and_then(|w| w.code_lens.as_ref()).and_then(|i| i.refresh_support).unwrap_or(false);
+    let inlay = ws
+        .and_then(|w| w.inlay_hint.as_ref())
+        .and_then(|i| i.refresh_support)
+        .unwrap_or(false);
+    let lens = ws
+        .and_then(|w| w.code_lens.as_ref())
+        .and_then(|i| i.refresh_support)
+        .unwrap_or(false);
     (inlay, lens)
 }
 
 /// Sends what the state thread queues, in order. Progress sequences and refresh requests wait
 /// for client replies, so they run in tasks of their own.
-async fn publisher(client: Client, mut rx: tmpsc::UnboundedReceiver<Outgoing>, refresh: (bool, bool)) {
-    let mut progress: std::collections::HashMap<String, tmpsc::UnboundedSender<WorkDoneProgress>> = Default::default();
+async fn publisher(
+    client: Client,
+    mut rx: tmpsc::UnboundedReceiver<Outgoing>,
+    refresh: (bool, bool),
+) {
+    let mut progress: std::collections::HashMap<String, tmpsc::UnboundedSender<WorkDoneProgress>> =
+        Default::default();
     let refreshing = Arc::new(AtomicBool::new(false));
     while let Some(msg) = rx.recv().await {
         match msg {
-            Outgoing::Publish { uri, diagnostics, version } => {
-                client.publish_diagnostics(uri, diagnostics, version).await
-            }
-            Outgoing::ProgressBegin { token, title, message } => {
+            Outgoing::Publish {
+                uri,
+                diagnostics,
+                version,
+            } => client.publish_diagnostics(uri, diagnostics, version).await,
+            Outgoing::ProgressBegin {
+                token,
+                title,
+                message,
+            } => {
                 let (ptx, mut prx) = tmpsc::unbounded_channel::<WorkDoneProgress>();
                 let _ = ptx.send(WorkDoneProgress::Begin(WorkDoneProgressBegin {
                     title,
@@ -363,9 +465,9 @@ async fn publisher(client: Client, mut rx: tmpsc::UnboundedReceiver<Outgoing>, r
                 let client = client.clone();
                 tokio::spawn(async move {
                     let tok = NumberOrString::String(token);
-                    let create = client.send_request::<request::WorkDoneProgressCreate>(WorkDoneProgressCreateParams {
-                        token: tok.clone(),
-                    });
+                    let create = client.send_request::<request::WorkDoneProgressCreate>(
+                        WorkDoneProgressCreateParams { token: tok.clone() },
+                    );
                     match tokio::time::timeout(Duration::from_secs(10), create).await {
                         Ok(Ok(())) => {}
                         _ => {
@@ -384,7 +486,11 @@ async fn publisher(client: Client, mut rx: tmpsc::UnboundedReceiver<Outgoing>, r
                     }
                 });
             }
-            Outgoing::ProgressReport { token, message, percentage } => {
+            Outgoing::ProgressReport {
+                token,
+                message,
+                percentage,
+            } => {
                 if let Some(p) = progress.get(&token) {
                     let _ = p.send(WorkDoneProgress::Report(WorkDoneProgressReport {
                         cancellable: None,
@@ -395,7 +501,9 @@ async fn publisher(client: Client, mut rx: tmpsc::UnboundedReceiver<Outgoing>, r
             }
             Outgoing::ProgressEnd { token, message } => {
                 if let Some(p) = progress.remove(&token) {
-                    let _ = p.send(WorkDoneProgress::End(WorkDoneProgressEnd { message: Some(message) }));
+                    let _ = p.send(WorkDoneProgress::End(WorkDoneProgressEnd {
+                        message: Some(message),
+                    }));
                 }
             }
             Outgoing::Analyzed(v) => client.send_notification::<Analyzed>(v).await,
@@ -422,7 +530,10 @@ async fn publisher(client: Client, mut rx: tmpsc::UnboundedReceiver<Outgoing>, r
 /// Test-only: the server's text of an open document, after every change sent before it.
 async fn document_text(b: &Backend, p: Value) -> RpcResult<Value> {
     let enabled = b.shared().map(|s| s.settings().test_mode).unwrap_or(false);
-    let uri = p.get("uri").and_then(Value::as_str).and_then(|u| Url::parse(u).ok());
+    let uri = p
+        .get("uri")
+        .and_then(Value::as_str)
+        .and_then(|u| Url::parse(u).ok());
     // queue first (synchronously), then check: the request keeps its place in the order
     let (reply, rx) = oneshot::channel();
     if let (true, Some(uri)) = (enabled, uri.clone()) {
@@ -479,10 +590,17 @@ struct Output {
 }
 
 impl tokio::io::AsyncWrite for Output {
-    fn poll_write(self: Pin<&mut Self>, _: &mut Context<'_>, buf: &[u8]) -> Poll<std::io::Result<usize>> {
+    fn poll_write(
+        self: Pin<&mut Self>,
+        _: &mut Context<'_>,
+        buf: &[u8],
+    ) -> Poll<std::io::Result<usize>> {
         match &self.tx {
             Some(tx) if tx.send(buf.to_vec()).is_ok() => Poll::Ready(Ok(buf.len())),
-            _ => Poll::Ready(Err(std::io::Error::new(std::io::ErrorKind::BrokenPipe, "output closed"))),
+            _ => Poll::Ready(Err(std::io::Error::new(
+                std::io::ErrorKind::BrokenPipe,
+                "output closed",
+            ))),
         }
     }
     fn poll_flush(self: Pin<&mut Self>, _: &mut Context<'_>) -> Poll<std::io::Result<()>> {
@@ -518,17 +636,27 @@ pub fn run(args: ServeArgs) -> ExitCode {
     let mut sink = take_stdout();
     let filter = tracing_subscriber::EnvFilter::try_new(&args.log_level)
         .unwrap_or_else(|_| tracing_subscriber::EnvFilter::new("info"));
-    let _ = tracing_subscriber::fmt().with_env_filter(filter).with_writer(std::io::stderr).with_ansi(false).try_init();
+    let _ = tracing_subscriber::fmt()
+        .with_env_filter(filter)
+        .with_writer(std::io::stderr)
+        .with_ansi(false)
+        .try_init();
 
     let (wtx, wrx) = mpsc::channel::<Vec<u8>>();
-    let writer = std::thread::Builder::new().name("seam-stdout".into()).spawn(move || {
-        for chunk in wrx {
-            if sink.write_all(&chunk).and_then(|_| sink.flush()).is_err() {
-                break;
+    let writer = std::thread::Builder::new()
+        .name("seam-stdout".into())
+        .spawn(move || {
+            for chunk in wrx {
+                if sink.write_all(&chunk).and_then(|_| sink.flush()).is_err() {
+                    break;
+                }
             }
-        }
-    });
-    let rt = match tokio::runtime::Builder::new_multi_thread().worker_threads(2).enable_all().build() {
+        });
+    let rt = match tokio::runtime::Builder::new_multi_thread()
+        .worker_threads(2)
+        .enable_all()
+        .build()
+    {
         Ok(rt) => rt,
         Err(e) => {
             eprintln!("seam: error: cannot start the async runtime: {e}");
@@ -551,7 +679,10 @@ pub fn run(args: ServeArgs) -> ExitCode {
             .custom_method("seam/documentText", document_text)
             .finish();
             let (etx, erx) = oneshot::channel();
-            let service = ExitWatch { inner: service, exit: Some(etx) };
+            let service = ExitWatch {
+                inner: service,
+                exit: Some(etx),
+            };
             let out = Output { tx: Some(wtx) };
             let server = Server::new(tokio::io::stdin(), out, socket).serve(service);
             tokio::select! {
@@ -578,7 +709,10 @@ pub fn run(args: ServeArgs) -> ExitCode {
     if shutdown_seen.load(Ordering::SeqCst) {
         ExitCode::SUCCESS
     } else {
-        tracing::info!("ended without a shutdown request (exit seen: {})", exited.load(Ordering::SeqCst));
+        tracing::info!(
+            "ended without a shutdown request (exit seen: {})",
+            exited.load(Ordering::SeqCst)
+        );
         ExitCode::from(1)
     }
 }

@@ -63,9 +63,20 @@ pub struct Settings {
 impl Default for Settings {
     fn default() -> Self {
         // the rule pages of the source tree this binary was built from, while they exist
-        let docs = Path::new(env!("CARGO_MANIFEST_DIR")).join("..").join("docs").join("rules");
-        let docs_base = docs.canonicalize().ok().and_then(|d| Url::from_directory_path(d).ok());
-        Settings { inlay_hints: true, test_mode: false, docs_base, debounce: Duration::from_millis(100) }
+        let docs = Path::new(env!("CARGO_MANIFEST_DIR"))
+            .join("..")
+            .join("docs")
+            .join("rules");
+        let docs_base = docs
+            .canonicalize()
+            .ok()
+            .and_then(|d| Url::from_directory_path(d).ok());
+        Settings {
+            inlay_hints: true,
+            test_mode: false,
+            docs_base,
+            debounce: Duration::from_millis(100),
+        }
     }
 }
 
@@ -82,8 +93,16 @@ impl Settings {
         if let Some(ms) = v.get("debounceMs").and_then(Value::as_u64) {
             self.debounce = Duration::from_millis(ms.min(10_000));
         }
-        if let Some(s) = v.get("rulesDocsUrl").and_then(Value::as_str).filter(|s| !s.trim().is_empty()) {
-            let s = if s.ends_with('/') { s.to_string() } else { format!("{s}/") };
+        if let Some(s) = v
+            .get("rulesDocsUrl")
+            .and_then(Value::as_str)
+            .filter(|s| !s.trim().is_empty())
+        {
+            let s = if s.ends_with('/') {
+                s.to_string()
+            } else {
+                format!("{s}/")
+            };
             match Url::parse(&s) {
                 Ok(u) => self.docs_base = Some(u),
                 Err(e) => tracing::warn!("rulesDocsUrl {s:?} is not a URL: {e}"),
@@ -374,16 +393,26 @@ impl FileEntry {
     }
 
     fn snap(&self) -> Arc<FileSnap> {
-        Arc::new(FileSnap { version: self.open, text: self.text.clone(), edits: Arc::new(self.edits.clone()) })
+        Arc::new(FileSnap {
+            version: self.open,
+            text: self.text.clone(),
+            edits: Arc::new(self.edits.clone()),
+        })
     }
 }
 
 fn is_source(p: &Path) -> bool {
-    matches!(p.extension().and_then(|e| e.to_str()), Some("v") | Some("sv"))
+    matches!(
+        p.extension().and_then(|e| e.to_str()),
+        Some("v") | Some("sv")
+    )
 }
 
 fn is_hdl(p: &Path) -> bool {
-    matches!(p.extension().and_then(|e| e.to_str()), Some("v") | Some("sv") | Some("vh") | Some("svh"))
+    matches!(
+        p.extension().and_then(|e| e.to_str()),
+        Some("v") | Some("sv") | Some("vh") | Some("svh")
+    )
 }
 
 fn problem_model(display: &str, message: &str) -> FileModel {
@@ -394,7 +423,14 @@ fn problem_model(display: &str, message: &str) -> FileModel {
         packages: vec![],
         problems: vec![Problem {
             hint: false,
-            span: Span { file: display.into(), line: 1, column: 1, end_line: 1, end_column: 1, ..Default::default() },
+            span: Span {
+                file: display.into(),
+                line: 1,
+                column: 1,
+                end_line: 1,
+                end_column: 1,
+                ..Default::default()
+            },
             message: message.to_string(),
         }],
         waivers: vec![],
@@ -405,14 +441,17 @@ fn problem_model(display: &str, message: &str) -> FileModel {
 /// Macro tables equal in what they define (where a macro was defined does not matter).
 fn same_macros(a: &MacroTable, b: &MacroTable) -> bool {
     a.defs.len() == b.defs.len()
-        && a.defs.iter().zip(b.defs.iter()).all(|((ka, va), (kb, vb))| {
-            ka == kb
-                && match (va, vb) {
-                    (Some(x), Some(y)) => x.args == y.args && x.body == y.body,
-                    (None, None) => true,
-                    _ => false,
-                }
-        })
+        && a.defs
+            .iter()
+            .zip(b.defs.iter())
+            .all(|((ka, va), (kb, vb))| {
+                ka == kb
+                    && match (va, vb) {
+                        (Some(x), Some(y)) => x.args == y.args && x.body == y.body,
+                        (None, None) => true,
+                        _ => false,
+                    }
+            })
 }
 
 fn file_uri(p: &Path) -> Option<Url> {
@@ -427,12 +466,21 @@ fn fallback_jobs(root: &Path) -> Vec<Job> {
         .filter_map(|e| e.ok())
         .filter(|e| e.file_type().is_file())
         .map(|e| e.into_path())
-        .filter(|p| !p.components().any(|c| c.as_os_str() == "target" || c.as_os_str() == ".git"))
+        .filter(|p| {
+            !p.components()
+                .any(|c| c.as_os_str() == "target" || c.as_os_str() == ".git")
+        })
         .collect();
     let files = seam_analysis::filelist::default_file_set(&all, root);
     let mut files: Vec<PathBuf> = files;
     files.sort();
-    files.into_iter().map(|p| Job { display: project::display_path(root, &p), disk: p }).collect()
+    files
+        .into_iter()
+        .map(|p| Job {
+            display: project::display_path(root, &p),
+            disk: p,
+        })
+        .collect()
 }
 
 fn fallback_project(root: &Path) -> ProjectState {
@@ -448,11 +496,16 @@ fn fallback_project(root: &Path) -> ProjectState {
 
 /// Read the project (the same rules as `seam check`), keeping `prev` when the configuration
 /// does not load.
-fn load_project(root: &Path, prev: Option<&Arc<ProjectState>>) -> (Arc<ProjectState>, Vec<LoadProblem>) {
+fn load_project(
+    root: &Path,
+    prev: Option<&Arc<ProjectState>>,
+) -> (Arc<ProjectState>, Vec<LoadProblem>) {
     let cfg_path = root.join("seam.toml");
     let mut problems = Vec::new();
     let keep = |problems: Vec<LoadProblem>| {
-        let p = prev.cloned().unwrap_or_else(|| Arc::new(fallback_project(root)));
+        let p = prev
+            .cloned()
+            .unwrap_or_else(|| Arc::new(fallback_project(root)));
         (p, problems)
     };
     let config = if cfg_path.is_file() {
@@ -477,7 +530,10 @@ fn load_project(root: &Path, prev: Option<&Arc<ProjectState>>) -> (Arc<ProjectSt
                     column: e.column.max(1),
                     message: format!(
                         "{}{} (the last configuration that loaded stays in force)",
-                        e.key.as_deref().map(|k| format!("{k}: ")).unwrap_or_default(),
+                        e.key
+                            .as_deref()
+                            .map(|k| format!("{k}: "))
+                            .unwrap_or_default(),
                         e.message
                     ),
                 });
@@ -487,8 +543,11 @@ fn load_project(root: &Path, prev: Option<&Arc<ProjectState>>) -> (Arc<ProjectSt
     } else {
         None
     };
-    let loaded =
-        if config.is_some() { project::load(&[], Some(&cfg_path)) } else { project::load(&[root.to_path_buf()], None) };
+    let loaded = if config.is_some() {
+        project::load(&[], Some(&cfg_path))
+    } else {
+        project::load(&[root.to_path_buf()], None)
+    };
     match loaded {
         Ok(p) => {
             let filelist = p.config.design.filelist.as_ref().map(|f| p.root.join(f));
@@ -505,7 +564,10 @@ fn load_project(root: &Path, prev: Option<&Arc<ProjectState>>) -> (Arc<ProjectSt
         Err(e) => {
             let (line, column) = config
                 .as_ref()
-                .and_then(|c| c.location("design.filelist").or_else(|| c.location("design.files")))
+                .and_then(|c| {
+                    c.location("design.filelist")
+                        .or_else(|| c.location("design.files"))
+                })
                 .unwrap_or((1, 1));
             problems.push(LoadProblem {
                 file: cfg_path.clone(),
@@ -540,7 +602,12 @@ fn run_index(
 ) -> IndexResult {
     let (project, problems) = load_project(&root, prev.as_ref());
     if !full {
-        return IndexResult { id, project, problems, files: None };
+        return IndexResult {
+            id,
+            project,
+            problems,
+            files: None,
+        };
     }
     let n = project.jobs.len();
     let _ = out.send(Outgoing::ProgressReport {
@@ -556,7 +623,9 @@ fn run_index(
         let text = String::from_utf8_lossy(&bytes).to_string();
         let opts = options_for(&project.options, &j.disk);
         let path = j.disk.to_string_lossy().to_string();
-        let pp = catch_unwind(AssertUnwindSafe(|| parse::preprocess(&path, &j.display, &text, &macros, &opts)));
+        let pp = catch_unwind(AssertUnwindSafe(|| {
+            parse::preprocess(&path, &j.display, &text, &macros, &opts)
+        }));
         if let Ok(Ok(pp)) = pp {
             macros = pp.macros_out.clone();
         }
@@ -576,14 +645,43 @@ fn run_index(
         message: format!("parsing {n} files"),
         percentage: 30,
     });
-    let parallel = std::thread::available_parallelism().map(|p| p.get()).unwrap_or(2);
-    let models = worker::parse_all(&project.jobs, project.macros.clone(), &project.options, limit, parallel);
+    let parallel = std::thread::available_parallelism()
+        .map(|p| p.get())
+        .unwrap_or(2);
+    let models = worker::parse_all(
+        &project.jobs,
+        project.macros.clone(),
+        &project.options,
+        limit,
+        parallel,
+    );
     let mut files = HashMap::new();
-    for ((j, model), (text, macros_out)) in project.jobs.iter().zip(models).zip(texts.into_iter().zip(macros_after)) {
-        files.insert(j.disk.clone(), IndexedFile { text, model, macros_out });
+    for ((j, model), (text, macros_out)) in project
+        .jobs
+        .iter()
+        .zip(models)
+        .zip(texts.into_iter().zip(macros_after))
+    {
+        files.insert(
+            j.disk.clone(),
+            IndexedFile {
+                text,
+                model,
+                macros_out,
+            },
+        );
     }
-    let _ = out.send(Outgoing::ProgressReport { token, message: "analysing".into(), percentage: 90 });
-    IndexResult { id, project, problems, files: Some(files) }
+    let _ = out.send(Outgoing::ProgressReport {
+        token,
+        message: "analysing".into(),
+        percentage: 90,
+    });
+    IndexResult {
+        id,
+        project,
+        problems,
+        files: Some(files),
+    }
 }
 
 // ---------------------------------------------------------------------------------------------
@@ -655,11 +753,14 @@ pub fn start(shared: Arc<Shared>, out: OutTx, args: StateArgs) -> mpsc::Sender<E
         generation: 0,
         shutting_down: false,
     };
-    let spawned = std::thread::Builder::new().name("seam-state".into()).stack_size(STATE_STACK).spawn(move || {
-        let mut state = state;
-        state.enc = state.shared.encoding;
-        state.run(rx)
-    });
+    let spawned = std::thread::Builder::new()
+        .name("seam-state".into())
+        .stack_size(STATE_STACK)
+        .spawn(move || {
+            let mut state = state;
+            state.enc = state.shared.encoding;
+            state.run(rx)
+        });
     if let Err(e) = spawned {
         tracing::error!("cannot start the state thread: {e}");
     }
@@ -669,7 +770,9 @@ pub fn start(shared: Arc<Shared>, out: OutTx, args: StateArgs) -> mpsc::Sender<E
 impl State {
     fn run(&mut self, rx: mpsc::Receiver<Event>) {
         loop {
-            let wait = self.next_wake().map(|t| t.saturating_duration_since(Instant::now()));
+            let wait = self
+                .next_wake()
+                .map(|t| t.saturating_duration_since(Instant::now()));
             let first = match wait {
                 Some(d) => rx.recv_timeout(d),
                 None => rx.recv().map_err(|_| RecvTimeoutError::Disconnected),
@@ -706,13 +809,20 @@ impl State {
         if self.indexing.is_some() || !self.indexed_once || self.shutting_down {
             return None;
         }
-        self.dirty.iter().filter_map(|k| self.entries.get(k)?.due).min()
+        self.dirty
+            .iter()
+            .filter_map(|k| self.entries.get(k)?.due)
+            .min()
     }
 
     fn handle(&mut self, ev: Event) {
         match ev {
             Event::Open { uri, version, text } => self.open(uri, version, text),
-            Event::Change { uri, version, changes } => self.change(&uri, version, &changes),
+            Event::Change {
+                uri,
+                version,
+                changes,
+            } => self.change(&uri, version, &changes),
             Event::Close { uri } => self.close(&uri),
             Event::Watched(evs) => self.watched(evs),
             Event::Settings(v) => {
@@ -728,7 +838,11 @@ impl State {
             Event::Parsed(d) => self.parsed(*d),
             Event::DocumentText { uri, reply } => {
                 let key = key_of(&uri);
-                let text = self.entries.get(&key).filter(|e| e.open.is_some()).map(|e| e.text.to_string());
+                let text = self
+                    .entries
+                    .get(&key)
+                    .filter(|e| e.open.is_some())
+                    .map(|e| e.text.to_string());
                 let _ = reply.send(text);
             }
             Event::Shutdown => self.shutting_down = true,
@@ -738,7 +852,11 @@ impl State {
     // ----- documents -----
 
     fn display_for(&self, path: &Path) -> String {
-        let root = self.project.as_ref().map(|p| p.root.clone()).unwrap_or_else(|| self.root.clone());
+        let root = self
+            .project
+            .as_ref()
+            .map(|p| p.root.clone())
+            .unwrap_or_else(|| self.root.clone());
         project::display_path(&root, path)
     }
 
@@ -764,10 +882,13 @@ impl State {
 
     fn open(&mut self, uri: Url, version: i32, text: String) {
         let key = key_of(&uri);
-        let disk = key.to_file_path().unwrap_or_else(|_| PathBuf::from(uri.path()));
+        let disk = key
+            .to_file_path()
+            .unwrap_or_else(|_| PathBuf::from(uri.path()));
         if !self.entries.contains_key(&key) {
             let display = self.display_for(&disk);
-            self.entries.insert(key.clone(), FileEntry::new(key.clone(), display, disk, ""));
+            self.entries
+                .insert(key.clone(), FileEntry::new(key.clone(), display, disk, ""));
         }
         let e = self.entries.get_mut(&key).expect("entry just made");
         e.open = Some(version);
@@ -806,13 +927,17 @@ impl State {
 
     fn close(&mut self, uri: &Url) {
         let key = key_of(uri);
-        let Some(e) = self.entries.get_mut(&key) else { return };
+        let Some(e) = self.entries.get_mut(&key) else {
+            return;
+        };
         e.open = None;
         e.client_uri = key.clone();
         self.unannounced.remove(&key);
         let keep = e.in_design && e.disk.is_file();
         if keep {
-            let text = std::fs::read(&e.disk).map(|b| String::from_utf8_lossy(&b).to_string()).unwrap_or_default();
+            let text = std::fs::read(&e.disk)
+                .map(|b| String::from_utf8_lossy(&b).to_string())
+                .unwrap_or_default();
             if e.replace_text(&text) {
                 self.mark_dirty(&key, Instant::now());
             }
@@ -826,15 +951,25 @@ impl State {
 
     fn watched(&mut self, evs: Vec<FileEvent>) {
         let mut index: Option<bool> = None;
-        let root = self.project.as_ref().map(|p| p.root.clone()).unwrap_or_else(|| self.root.clone());
+        let root = self
+            .project
+            .as_ref()
+            .map(|p| p.root.clone())
+            .unwrap_or_else(|| self.root.clone());
         let filelist = self.project.as_ref().and_then(|p| p.filelist.clone());
         for fe in evs {
-            let Ok(path) = fe.uri.to_file_path() else { continue };
+            let Ok(path) = fe.uri.to_file_path() else {
+                continue;
+            };
             let name = path.file_name().and_then(|n| n.to_str()).unwrap_or("");
             let canon = path.canonicalize().unwrap_or_else(|_| path.clone());
-            let is_config = name == "seam.toml" && path.parent().map(|d| same_dir(d, &root)).unwrap_or(false);
+            let is_config =
+                name == "seam.toml" && path.parent().map(|d| same_dir(d, &root)).unwrap_or(false);
             let is_filelist = filelist.as_ref().is_some_and(|f| same_file(f, &path))
-                || matches!(path.extension().and_then(|e| e.to_str()), Some("f") | Some("flist") | Some("vc"));
+                || matches!(
+                    path.extension().and_then(|e| e.to_str()),
+                    Some("f") | Some("flist") | Some("vc")
+                );
             if is_config || is_filelist {
                 tracing::info!("{} changed: reading the project again", path.display());
                 index = Some(true);
@@ -853,8 +988,9 @@ impl State {
             // a changed file not open in the editor: its disk text is what counts
             if let Some(e) = self.entries.get_mut(&key) {
                 if e.open.is_none() {
-                    let text =
-                        std::fs::read(&path).map(|b| String::from_utf8_lossy(&b).to_string()).unwrap_or_default();
+                    let text = std::fs::read(&path)
+                        .map(|b| String::from_utf8_lossy(&b).to_string())
+                        .unwrap_or_default();
                     if e.replace_text(&text) {
                         let at = Instant::now() + self.settings.debounce;
                         self.mark_dirty(&key, at);
@@ -871,7 +1007,8 @@ impl State {
                         e.last.as_ref().is_some_and(|m| {
                             m.model.includes.iter().any(|inc| {
                                 let ip = Path::new(inc);
-                                same_file(ip, &canon) || (ip.is_relative() && ip.file_name() == canon.file_name())
+                                same_file(ip, &canon)
+                                    || (ip.is_relative() && ip.file_name() == canon.file_name())
                             })
                         })
                     })
@@ -902,24 +1039,40 @@ impl State {
             let _ = self.out.send(Outgoing::ProgressBegin {
                 token: token.clone(),
                 title: "Seam".into(),
-                message: if full { "indexing the design".into() } else { "reading the file set".into() },
+                message: if full {
+                    "indexing the design".into()
+                } else {
+                    "reading the file set".into()
+                },
             });
         }
         let root = self.root.clone();
         let prev = self.project.clone();
         let limit = self.parse_timeout;
         let tx = self.tx.clone();
-        let out = if self.progress { self.out.clone() } else { tmpsc::unbounded_channel().0 };
-        let spawned = std::thread::Builder::new().name("seam-index".into()).spawn(move || {
-            let r =
-                catch_unwind(AssertUnwindSafe(|| run_index(id, root.clone(), prev.clone(), full, limit, token, out)));
-            let r = r.unwrap_or_else(|p| {
-                tracing::error!("internal error while indexing: {}", panic_text(&p));
-                let project = prev.unwrap_or_else(|| Arc::new(fallback_project(&root)));
-                IndexResult { id, project, problems: vec![], files: None }
+        let out = if self.progress {
+            self.out.clone()
+        } else {
+            tmpsc::unbounded_channel().0
+        };
+        let spawned = std::thread::Builder::new()
+            .name("seam-index".into())
+            .spawn(move || {
+                let r = catch_unwind(AssertUnwindSafe(|| {
+                    run_index(id, root.clone(), prev.clone(), full, limit, token, out)
+                }));
+                let r = r.unwrap_or_else(|p| {
+                    tracing::error!("internal error while indexing: {}", panic_text(&p));
+                    let project = prev.unwrap_or_else(|| Arc::new(fallback_project(&root)));
+                    IndexResult {
+                        id,
+                        project,
+                        problems: vec![],
+                        files: None,
+                    }
+                });
+                let _ = tx.send(Event::Indexed(Box::new(r)));
             });
-            let _ = tx.send(Event::Indexed(Box::new(r)));
-        });
         if let Err(e) = spawned {
             tracing::error!("cannot start indexing: {e}");
             self.indexing = None;
@@ -933,29 +1086,34 @@ impl State {
         self.indexing = None;
         let token = format!("seam-index-{}", r.id);
         let full = r.files.is_some();
-        let prev_options = self.project.as_ref().map(|p| (p.options.include_dirs.clone(), p.macros.clone()));
+        let prev_options = self
+            .project
+            .as_ref()
+            .map(|p| (p.options.include_dirs.clone(), p.macros.clone()));
         let project = r.project;
         self.root = project.root.clone();
         self.load_problems = r.problems;
-        let options_changed = prev_options
-            .is_some_and(|(dirs, m)| dirs != project.options.include_dirs || !same_macros(&m, &project.macros));
+        let options_changed = prev_options.is_some_and(|(dirs, m)| {
+            dirs != project.options.include_dirs || !same_macros(&m, &project.macros)
+        });
         let mut files = r.files.unwrap_or_default();
 
         let now = Instant::now();
         let mut new_order = Vec::with_capacity(project.jobs.len());
         let mut in_set: HashSet<Url> = HashSet::new();
         for j in &project.jobs {
-            let Some(key) = file_uri(&j.disk) else { continue };
+            let Some(key) = file_uri(&j.disk) else {
+                continue;
+            };
             if !in_set.insert(key.clone()) {
                 continue;
             }
             new_order.push(key.clone());
             let indexed = files.remove(&j.disk);
             let fresh = !self.entries.contains_key(&key);
-            let e = self
-                .entries
-                .entry(key.clone())
-                .or_insert_with(|| FileEntry::new(key.clone(), j.display.clone(), j.disk.clone(), ""));
+            let e = self.entries.entry(key.clone()).or_insert_with(|| {
+                FileEntry::new(key.clone(), j.display.clone(), j.disk.clone(), "")
+            });
             e.display = j.display.clone();
             e.in_design = true;
             let mut dirty = false;
@@ -965,7 +1123,11 @@ impl State {
                         e.replace_text(&ix.text);
                     }
                     if e.text == ix.text.as_str() {
-                        let at = ModelAt { model: Arc::new(ix.model), seq: e.seq, version: e.open };
+                        let at = ModelAt {
+                            model: Arc::new(ix.model),
+                            seq: e.seq,
+                            version: e.open,
+                        };
                         if parses(&at.model) || e.good.is_none() {
                             e.good = Some(at.clone());
                         }
@@ -978,8 +1140,9 @@ impl State {
                 }
                 None => {
                     if e.open.is_none() {
-                        let text =
-                            std::fs::read(&j.disk).map(|b| String::from_utf8_lossy(&b).to_string()).unwrap_or_default();
+                        let text = std::fs::read(&j.disk)
+                            .map(|b| String::from_utf8_lossy(&b).to_string())
+                            .unwrap_or_default();
                         dirty |= e.replace_text(&text);
                     }
                     dirty |= fresh || e.last.is_none() || options_changed;
@@ -993,7 +1156,12 @@ impl State {
             self.update_snap(&key);
         }
         // files that left the set: open ones stay (syntax only), the rest go
-        let gone: Vec<Url> = self.entries.keys().filter(|k| !in_set.contains(*k)).cloned().collect();
+        let gone: Vec<Url> = self
+            .entries
+            .keys()
+            .filter(|k| !in_set.contains(*k))
+            .cloned()
+            .collect();
         for k in gone {
             let keep = self.entries.get(&k).is_some_and(|e| e.open.is_some());
             if keep {
@@ -1012,7 +1180,10 @@ impl State {
         self.analysis_wanted = true;
         if self.progress {
             let n = self.order.len();
-            let _ = self.out.send(Outgoing::ProgressEnd { token, message: format!("{n} files") });
+            let _ = self.out.send(Outgoing::ProgressEnd {
+                token,
+                message: format!("{n} files"),
+            });
         }
         if let Some(full) = self.index_again.take() {
             self.request_index(full);
@@ -1033,7 +1204,11 @@ impl State {
             // the watchdog: the parse thread cannot be stopped; its late result is ignored
             let (key, seq) = (j.key.clone(), j.seq);
             self.inflight = None;
-            let display = self.entries.get(&key).map(|e| e.display.clone()).unwrap_or_default();
+            let display = self
+                .entries
+                .get(&key)
+                .map(|e| e.display.clone())
+                .unwrap_or_default();
             let msg = format!(
                 "parsing took longer than {} s and was abandoned; file not analysed",
                 self.parse_timeout.as_secs()
@@ -1049,7 +1224,12 @@ impl State {
         let next = self
             .dirty
             .iter()
-            .filter(|k| self.entries.get(*k).and_then(|e| e.due).is_some_and(|d| d <= now))
+            .filter(|k| {
+                self.entries
+                    .get(*k)
+                    .and_then(|e| e.due)
+                    .is_some_and(|d| d <= now)
+            })
             .min_by_key(|k| (ix.get(k).copied().unwrap_or(usize::MAX), (*k).clone()))
             .cloned();
         if let Some(key) = next {
@@ -1065,8 +1245,14 @@ impl State {
 
     /// Macros in force before a file: what its predecessor in compile order leaves defined.
     fn macros_before(&self, key: &Url) -> MacroTable {
-        let base = self.project.as_ref().map(|p| p.macros.clone()).unwrap_or_default();
-        let Some(pos) = self.order.iter().position(|k| k == key) else { return base };
+        let base = self
+            .project
+            .as_ref()
+            .map(|p| p.macros.clone())
+            .unwrap_or_default();
+        let Some(pos) = self.order.iter().position(|k| k == key) else {
+            return base;
+        };
         self.order[..pos]
             .iter()
             .rev()
@@ -1076,8 +1262,14 @@ impl State {
 
     fn start_parse(&mut self, key: &Url) {
         let macros = self.macros_before(key);
-        let opts = self.project.as_ref().map(|p| p.options.clone()).unwrap_or_default();
-        let Some(e) = self.entries.get_mut(key) else { return };
+        let opts = self
+            .project
+            .as_ref()
+            .map(|p| p.options.clone())
+            .unwrap_or_default();
+        let Some(e) = self.entries.get_mut(key) else {
+            return;
+        };
         e.due = None;
         self.dirty.remove(key);
         let id = self.next_job;
@@ -1089,25 +1281,53 @@ impl State {
         let opts = options_for(&opts, &disk);
         let tx = self.tx.clone();
         let k = key.clone();
-        self.inflight = Some(InFlight { id, key: key.clone(), seq, deadline: Instant::now() + self.parse_timeout });
-        let spawned = std::thread::Builder::new().name("seam-parse".into()).stack_size(PARSE_STACK).spawn(move || {
-            let path = disk.to_string_lossy().to_string();
-            let out =
-                catch_unwind(AssertUnwindSafe(|| parse::parse_file(&path, &display, text.as_bytes(), &macros, &opts)));
-            let (model, macros_out) = match out {
-                Ok(o) => (o.model, o.macros_out),
-                Err(_) => {
-                    (problem_model(&display, "the parser failed on this file (internal panic); not analysed"), macros)
-                }
-            };
-            let _ = tx.send(Event::Parsed(Box::new(ParseDone { id, key: k, seq, model, macros_out })));
+        self.inflight = Some(InFlight {
+            id,
+            key: key.clone(),
+            seq,
+            deadline: Instant::now() + self.parse_timeout,
         });
+        let spawned = std::thread::Builder::new()
+            .name("seam-parse".into())
+            .stack_size(PARSE_STACK)
+            .spawn(move || {
+                let path = disk.to_string_lossy().to_string();
+                let out = catch_unwind(AssertUnwindSafe(|| {
+                    parse::parse_file(&path, &display, text.as_bytes(), &macros, &opts)
+                }));
+                let (model, macros_out) = match out {
+                    Ok(o) => (o.model, o.macros_out),
+                    Err(_) => (
+                        problem_model(
+                            &display,
+                            "the parser failed on this file (internal panic); not analysed",
+                        ),
+                        macros,
+                    ),
+                };
+                let _ = tx.send(Event::Parsed(Box::new(ParseDone {
+                    id,
+                    key: k,
+                    seq,
+                    model,
+                    macros_out,
+                })));
+            });
         if let Err(err) = spawned {
             tracing::error!("cannot start a parse thread: {err}");
             self.inflight = None;
-            let display = self.entries.get(key).map(|e| e.display.clone()).unwrap_or_default();
+            let display = self
+                .entries
+                .get(key)
+                .map(|e| e.display.clone())
+                .unwrap_or_default();
             let m = self.macros_before(key);
-            self.adopt(key, seq, problem_model(&display, "cannot start a parser thread; file not analysed"), m);
+            self.adopt(
+                key,
+                seq,
+                problem_model(&display, "cannot start a parser thread; file not analysed"),
+                m,
+            );
         }
     }
 
@@ -1120,17 +1340,31 @@ impl State {
     }
 
     fn adopt(&mut self, key: &Url, seq: u64, model: FileModel, macros_out: MacroTable) {
-        let Some(e) = self.entries.get_mut(key) else { return };
+        let Some(e) = self.entries.get_mut(key) else {
+            return;
+        };
         if e.seq != seq {
-            tracing::debug!("dropping a parse of {} at edit {seq}; the text is at {}", e.display, e.seq);
+            tracing::debug!(
+                "dropping a parse of {} at edit {seq}; the text is at {}",
+                e.display,
+                e.seq
+            );
             return;
         }
-        let at = ModelAt { model: Arc::new(model), seq, version: e.open };
+        let at = ModelAt {
+            model: Arc::new(model),
+            seq,
+            version: e.open,
+        };
         if parses(&at.model) || e.good.is_none() {
             e.good = Some(at.clone());
         }
         e.last = Some(at);
-        let macros_changed = e.macros_out.as_ref().map(|m| !same_macros(m, &macros_out)).unwrap_or(true);
+        let macros_changed = e
+            .macros_out
+            .as_ref()
+            .map(|m| !same_macros(m, &macros_out))
+            .unwrap_or(true);
         e.macros_out = Some(macros_out);
         let in_design = e.in_design;
         self.analysis_wanted = true;
@@ -1151,28 +1385,44 @@ impl State {
     fn analyse(&mut self) {
         self.analysis_wanted = false;
         self.generation += 1;
-        let config = self.project.as_ref().map(|p| p.config.clone()).unwrap_or_default();
+        let config = self
+            .project
+            .as_ref()
+            .map(|p| p.config.clone())
+            .unwrap_or_default();
         let mut models = Vec::new();
         let mut design_files = HashMap::new();
         let mut by_display = HashMap::new();
         for k in &self.order {
-            let Some(e) = self.entries.get(k) else { continue };
-            let Some((m, good_seq)) = e.effective() else { continue };
+            let Some(e) = self.entries.get(k) else {
+                continue;
+            };
+            let Some((m, good_seq)) = e.effective() else {
+                continue;
+            };
             design_files.insert(
                 k.clone(),
-                DesignFile { display: e.display.clone(), model: Arc::new(m.clone()), good_seq, stale: e.stale() },
+                DesignFile {
+                    display: e.display.clone(),
+                    model: Arc::new(m.clone()),
+                    good_seq,
+                    stale: e.stale(),
+                },
             );
             by_display.insert(e.display.clone(), k.clone());
             models.push(m);
         }
         let started = Instant::now();
-        let analysis = match catch_unwind(AssertUnwindSafe(|| seam_analysis::analyze(&models, &config))) {
+        let analysis = match catch_unwind(AssertUnwindSafe(|| {
+            seam_analysis::analyze(&models, &config)
+        })) {
             Ok(a) => a,
             Err(p) => {
                 tracing::error!("internal error in the design analysis: {}", panic_text(&p));
                 let _ = self.out.send(Outgoing::Message(
                     MessageType::ERROR,
-                    "Seam: internal error in the design analysis; showing syntax findings only".into(),
+                    "Seam: internal error in the design analysis; showing syntax findings only"
+                        .into(),
                 ));
                 Analysis {
                     findings: models.iter().flat_map(finding::syntax_findings).collect(),
@@ -1182,7 +1432,11 @@ impl State {
                 }
             }
         };
-        tracing::debug!("analysis of {} files took {:?}", models.len(), started.elapsed());
+        tracing::debug!(
+            "analysis of {} files took {:?}",
+            models.len(),
+            started.elapsed()
+        );
         drop(models);
 
         // files outside the design (open, but not in the file set): their syntax findings
@@ -1193,7 +1447,12 @@ impl State {
                 by_display.insert(e.display.clone(), e.key.clone());
                 design_files.insert(
                     e.key.clone(),
-                    DesignFile { display: e.display.clone(), model: l.model.clone(), good_seq: l.seq, stale: false },
+                    DesignFile {
+                        display: e.display.clone(),
+                        model: l.model.clone(),
+                        good_seq: l.seq,
+                        stale: false,
+                    },
                 );
             }
         }
@@ -1207,7 +1466,8 @@ impl State {
         let docs = self.settings.docs_base.clone();
         let mut aux: HashMap<Url, Option<Rope>> = HashMap::new();
         for f in analysis.findings.iter().chain(extra.iter()) {
-            let Some((uri, range, stale)) = self.place(&f.span, &f.rule, &by_display, &mut aux) else {
+            let Some((uri, range, stale)) = self.place(&f.span, &f.rule, &by_display, &mut aux)
+            else {
                 tracing::warn!("finding {} names no file: {}", f.rule, f.message);
                 continue;
             };
@@ -1219,13 +1479,25 @@ impl State {
                     Some((self.publish_uri(&u), rg, r.message.clone()))
                 })
                 .collect();
-            sets.entry(uri).or_default().push(convert::diagnostic(f, range, related, stale, docs.as_ref()));
+            sets.entry(uri).or_default().push(convert::diagnostic(
+                f,
+                range,
+                related,
+                stale,
+                docs.as_ref(),
+            ));
         }
         for p in &self.load_problems {
-            let Some(uri) = file_uri(&p.file) else { continue };
-            let text = std::fs::read_to_string(&p.file).ok().map(|t| Rope::from_str(&t));
+            let Some(uri) = file_uri(&p.file) else {
+                continue;
+            };
+            let text = std::fs::read_to_string(&p.file)
+                .ok()
+                .map(|t| Rope::from_str(&t));
             let pos = match &text {
-                Some(t) => documents::line_col_to_position(t, p.line as u32, p.column as u32, self.enc),
+                Some(t) => {
+                    documents::line_col_to_position(t, p.line as u32, p.column as u32, self.enc)
+                }
                 None => tower_lsp::lsp_types::Position::new(
                     p.line.saturating_sub(1) as u32,
                     p.column.saturating_sub(1) as u32,
@@ -1253,7 +1525,11 @@ impl State {
         for key in keys {
             let mut diags = sets.remove(&key).unwrap_or_default();
             diags.sort_by(|a, b| {
-                (a.range.start, a.range.end, &a.message).cmp(&(b.range.start, b.range.end, &b.message))
+                (a.range.start, a.range.end, &a.message).cmp(&(
+                    b.range.start,
+                    b.range.end,
+                    &b.message,
+                ))
             });
             let before = self.published.get(&key);
             let announce = self.unannounced.remove(&key);
@@ -1267,22 +1543,37 @@ impl State {
             }
             let version = self.entries.get(&key).and_then(|e| e.open);
             let uri = self.publish_uri(&key);
-            if diags.is_empty() && self.entries.get(&key).map(|e| e.open.is_none()).unwrap_or(true) {
+            if diags.is_empty()
+                && self
+                    .entries
+                    .get(&key)
+                    .map(|e| e.open.is_none())
+                    .unwrap_or(true)
+            {
                 self.published.remove(&key);
             } else {
                 self.published.insert(key.clone(), diags.clone());
             }
-            let _ = self.out.send(Outgoing::Publish { uri, diagnostics: diags, version });
+            let _ = self.out.send(Outgoing::Publish {
+                uri,
+                diagnostics: diags,
+                version,
+            });
         }
 
         // the snapshot requests read, and edits no snapshot needs any more
-        let snap = DesignSnap { analysis: Arc::new(analysis), files: design_files };
+        let snap = DesignSnap {
+            analysis: Arc::new(analysis),
+            files: design_files,
+        };
         if let Ok(mut g) = self.shared.design.write() {
             *g = Arc::new(snap);
         }
         let keys: Vec<Url> = self.entries.keys().cloned().collect();
         for k in keys {
-            let Some(e) = self.entries.get_mut(&k) else { continue };
+            let Some(e) = self.entries.get_mut(&k) else {
+                continue;
+            };
             let keep_from = match (&e.good, &e.last) {
                 (Some(g), Some(l)) => g.seq.min(l.seq),
                 (_, Some(l)) => l.seq,
@@ -1309,13 +1600,18 @@ impl State {
                     )
                 })
                 .collect();
-            let _ = self.out.send(Outgoing::Analyzed(json!({ "generation": self.generation, "documents": versions })));
+            let _ = self.out.send(Outgoing::Analyzed(
+                json!({ "generation": self.generation, "documents": versions }),
+            ));
         }
         let _ = self.out.send(Outgoing::Refresh);
     }
 
     fn publish_uri(&self, key: &Url) -> Url {
-        self.entries.get(key).map(|e| e.client_uri.clone()).unwrap_or_else(|| key.clone())
+        self.entries
+            .get(key)
+            .map(|e| e.client_uri.clone())
+            .unwrap_or_else(|| key.clone())
     }
 
     /// Where a span is now: its file's key, its range in the current text, and whether it
@@ -1332,7 +1628,11 @@ impl State {
                 return None;
             }
             let p = Path::new(&span.file);
-            let p = if p.is_absolute() { p.to_path_buf() } else { self.root.join(p) };
+            let p = if p.is_absolute() {
+                p.to_path_buf()
+            } else {
+                self.root.join(p)
+            };
             file_uri(&p)
         })?;
         if let Some(e) = self.entries.get(&key) {
@@ -1342,14 +1642,27 @@ impl State {
                 (_, Some(l)) => l.seq,
                 _ => e.seq,
             };
-            let view = TextView { text: &e.text, edits: &e.edits };
-            return Some((key, convert::span_range(Some(&view), seq, span, self.enc), stale));
+            let view = TextView {
+                text: &e.text,
+                edits: &e.edits,
+            };
+            return Some((
+                key,
+                convert::span_range(Some(&view), seq, span, self.enc),
+                stale,
+            ));
         }
         // a file the design does not hold (seam.toml, an include): read it once
         let text = aux.entry(key.clone()).or_insert_with(|| {
-            key.to_file_path().ok().and_then(|p| std::fs::read_to_string(p).ok()).map(|t| Rope::from_str(&t))
+            key.to_file_path()
+                .ok()
+                .and_then(|p| std::fs::read_to_string(p).ok())
+                .map(|t| Rope::from_str(&t))
         });
-        let view = text.as_ref().map(|t| TextView { text: t, edits: &[] });
+        let view = text.as_ref().map(|t| TextView {
+            text: t,
+            edits: &[],
+        });
         let range = convert::span_range(view.as_ref(), 0, span, self.enc);
         Some((key, range, false))
     }

@@ -21,8 +21,8 @@ use std::path::Path;
 
 use seam_analysis::config::Config;
 use seam_analysis::finding::{Finding, Severity};
-use seam_analysis::mtbf::{self, MtbfParams, MtbfResult, SyncInput};
 use seam_analysis::model::Span;
+use seam_analysis::mtbf::{self, MtbfParams, MtbfResult, SyncInput};
 use seam_analysis::report::{Analysis, Crossing, CrossingStatus};
 
 use super::sarif::{docs_base, CDC_CAUTION};
@@ -44,7 +44,11 @@ pub fn esc(s: &str) -> String {
     o
 }
 
-pub const STATUSES: [CrossingStatus; 3] = [CrossingStatus::Synchronized, CrossingStatus::Unsafe, CrossingStatus::Waived];
+pub const STATUSES: [CrossingStatus; 3] = [
+    CrossingStatus::Synchronized,
+    CrossingStatus::Unsafe,
+    CrossingStatus::Waived,
+];
 
 pub fn status_name(s: CrossingStatus) -> &'static str {
     match s {
@@ -154,9 +158,12 @@ pub fn edge_groups(a: &Analysis) -> Vec<(String, String, CrossingStatus, usize)>
     let mut m: BTreeMap<(String, String, usize), usize> = BTreeMap::new();
     for c in &a.crossings {
         let si = STATUSES.iter().position(|s| *s == c.status).unwrap_or(0);
-        *m.entry((c.source_domain.clone(), c.destination_domain.clone(), si)).or_default() += 1;
+        *m.entry((c.source_domain.clone(), c.destination_domain.clone(), si))
+            .or_default() += 1;
     }
-    m.into_iter().map(|((s, d, si), n)| (s, d, STATUSES[si], n)).collect()
+    m.into_iter()
+        .map(|((s, d, si), n)| (s, d, STATUSES[si], n))
+        .collect()
 }
 
 /// The highest clock frequency in a domain (the pessimistic one for MTBF), if any is known.
@@ -191,9 +198,20 @@ fn crossing_mtbf(a: &Analysis, config: &Config, c: &Crossing) -> Option<String> 
     let f_clk = domain_frequency(a, &c.destination_domain)?;
     let p = params(config);
     let source_clocked = a.clocks.iter().any(|k| k.domain == c.source_domain);
-    let source_hz = if source_clocked { Some(domain_frequency(a, &c.source_domain)?) } else { None };
-    let f_data = mtbf::transition_rate_hz(&p, config.mtbf.toggle.get(&c.source).copied(), source_hz);
-    let input = SyncInput { stages, dest_clock_hz: f_clk, f_data_hz: f_data, stage_time_s: None, bits: c.bits.max(1) };
+    let source_hz = if source_clocked {
+        Some(domain_frequency(a, &c.source_domain)?)
+    } else {
+        None
+    };
+    let f_data =
+        mtbf::transition_rate_hz(&p, config.mtbf.toggle.get(&c.source).copied(), source_hz);
+    let input = SyncInput {
+        stages,
+        dest_clock_hz: f_clk,
+        f_data_hz: f_data,
+        stage_time_s: None,
+        bits: c.bits.max(1),
+    };
     match mtbf::synchronizer_mtbf(&p, &input).ok()? {
         MtbfResult::Seconds { log10_s, .. } => {
             let all = mtbf::crossing_log10_seconds(log10_s, input.bits, 1.0)?;
@@ -237,11 +255,19 @@ fn short(s: &str, n: usize) -> String {
 fn svg_map(a: &Analysis, doms: &[String]) -> String {
     const NODE_R: f64 = 50.0;
     let n = doms.len();
-    let ring = if n <= 2 { 170.0 } else { (130.0 + 26.0 * n as f64).min(330.0) };
+    let ring = if n <= 2 {
+        170.0
+    } else {
+        (130.0 + 26.0 * n as f64).min(330.0)
+    };
     let size = 2.0 * (ring + NODE_R + 44.0);
     let (cx, cy) = (size / 2.0, size / 2.0);
     let pos = node_positions(n, cx, cy, ring);
-    let index: BTreeMap<&str, usize> = doms.iter().enumerate().map(|(i, d)| (d.as_str(), i)).collect();
+    let index: BTreeMap<&str, usize> = doms
+        .iter()
+        .enumerate()
+        .map(|(i, d)| (d.as_str(), i))
+        .collect();
     let groups = edge_groups(a);
     let mut s = String::new();
     let _ = write!(
@@ -265,11 +291,17 @@ fn svg_map(a: &Analysis, doms: &[String]) -> String {
     // Lanes per directed pair: the statuses present, in STATUSES order.
     let mut lanes: BTreeMap<(usize, usize), usize> = BTreeMap::new();
     for (src, dst, st, count) in &groups {
-        let (Some(&i), Some(&j)) = (index.get(src.as_str()), index.get(dst.as_str())) else { continue };
+        let (Some(&i), Some(&j)) = (index.get(src.as_str()), index.get(dst.as_str())) else {
+            continue;
+        };
         let lane = lanes.entry((i, j)).or_insert(0);
         let k = *lane;
         *lane += 1;
-        let title = format!("{src} → {dst}: {} {}", plural(*count, "crossing"), status_name(*st));
+        let title = format!(
+            "{src} → {dst}: {} {}",
+            plural(*count, "crossing"),
+            status_name(*st)
+        );
         let (d, label) = if i == j {
             // A loop outside the node, away from the centre.
             let (px, py) = (pos[i].0, pos[i].1);
@@ -289,7 +321,10 @@ fn svg_map(a: &Analysis, doms: &[String]) -> String {
             let c0 = (px + ux * reach + nx * 40.0, py + uy * reach + ny * 40.0);
             let c1 = (px + ux * reach - nx * 40.0, py + uy * reach - ny * 40.0);
             (
-                format!("M{:.1},{:.1} C{:.1},{:.1} {:.1},{:.1} {:.1},{:.1}", a0.0, a0.1, c0.0, c0.1, c1.0, c1.1, a1.0, a1.1),
+                format!(
+                    "M{:.1},{:.1} C{:.1},{:.1} {:.1},{:.1} {:.1},{:.1}",
+                    a0.0, a0.1, c0.0, c0.1, c1.0, c1.1, a1.0, a1.1
+                ),
                 (px + ux * (reach - 6.0), py + uy * (reach - 6.0)),
             )
         } else {
@@ -311,7 +346,10 @@ fn svg_map(a: &Analysis, doms: &[String]) -> String {
             let a0 = (p.0 + u0.0 * NODE_R, p.1 + u0.1 * NODE_R);
             let a1 = (q.0 + u1.0 * (NODE_R + 3.0), q.1 + u1.1 * (NODE_R + 3.0));
             (
-                format!("M{:.1},{:.1} Q{:.1},{:.1} {:.1},{:.1}", a0.0, a0.1, ctl.0, ctl.1, a1.0, a1.1),
+                format!(
+                    "M{:.1},{:.1} Q{:.1},{:.1} {:.1},{:.1}",
+                    a0.0, a0.1, ctl.0, ctl.1, a1.0, a1.1
+                ),
                 (mid.0 + nx * bend, mid.1 + ny * bend),
             )
         };
@@ -334,7 +372,8 @@ fn svg_map(a: &Analysis, doms: &[String]) -> String {
     s.push_str(r##"<g class="nodes">"##);
     for (i, d) in doms.iter().enumerate() {
         let Pt(x, y) = pos[i];
-        let clocks: Vec<&seam_analysis::report::ClockInfo> = a.clocks.iter().filter(|c| &c.domain == d).collect();
+        let clocks: Vec<&seam_analysis::report::ClockInfo> =
+            a.clocks.iter().filter(|c| &c.domain == d).collect();
         let sub = match (clocks.len(), domain_frequency(a, d)) {
             (0, _) => "no clock".to_string(),
             (1, Some(f)) => mtbf::format_frequency(f),
@@ -348,7 +387,11 @@ fn svg_map(a: &Analysis, doms: &[String]) -> String {
                 None => c.name.clone(),
             })
             .collect();
-        let title = if names.is_empty() { format!("domain {d}") } else { format!("domain {d}: {}", names.join(", ")) };
+        let title = if names.is_empty() {
+            format!("domain {d}")
+        } else {
+            format!("domain {d}: {}", names.join(", "))
+        };
         let _ = write!(
             s,
             r##"<g class="domain-node" data-domain="{dom}"><title>{title}</title><circle cx="{x:.1}" cy="{y:.1}" r="{r}" fill="#f4efe6" stroke="#24476b" stroke-width="2.5"/><text x="{x:.1}" y="{y1:.1}" text-anchor="middle" font-size="{fs}" font-weight="700" fill="#1f2a3a">{label}</text><text x="{x:.1}" y="{y2:.1}" text-anchor="middle" font-size="11" fill="#5b6778">{sub}</text></g>"##,
@@ -373,9 +416,18 @@ fn svg_map(a: &Analysis, doms: &[String]) -> String {
 fn legend() -> String {
     let mut s = String::from(r##"<ul class="legend" aria-label="Legend">"##);
     let what = [
-        (CrossingStatus::Synchronized, "synchronized: a synchronizer chain or a safe multi-bit scheme"),
-        (CrossingStatus::Unsafe, "unsafe: no synchronizer, or logic before it"),
-        (CrossingStatus::Waived, "waived: unsafe, but accepted by a waiver"),
+        (
+            CrossingStatus::Synchronized,
+            "synchronized: a synchronizer chain or a safe multi-bit scheme",
+        ),
+        (
+            CrossingStatus::Unsafe,
+            "unsafe: no synchronizer, or logic before it",
+        ),
+        (
+            CrossingStatus::Waived,
+            "waived: unsafe, but accepted by a waiver",
+        ),
     ];
     for (st, text) in what {
         let _ = write!(
@@ -401,7 +453,11 @@ fn domains_table(a: &Analysis, doms: &[String]) -> String {
         r##"<table class="domains"><thead><tr><th>Domain</th><th>Clock</th><th>Frequency</th><th>Root</th><th class="num">Registers</th></tr></thead><tbody>"##,
     );
     for d in doms {
-        let regs = a.registers.iter().filter(|r| r.domain.as_deref() == Some(d.as_str())).count();
+        let regs = a
+            .registers
+            .iter()
+            .filter(|r| r.domain.as_deref() == Some(d.as_str()))
+            .count();
         let clocks: Vec<_> = a.clocks.iter().filter(|c| &c.domain == d).collect();
         if clocks.is_empty() {
             let _ = write!(
@@ -412,14 +468,24 @@ fn domains_table(a: &Analysis, doms: &[String]) -> String {
             continue;
         }
         for (k, c) in clocks.iter().enumerate() {
-            let f = c.frequency_hz.map(mtbf::format_frequency).unwrap_or_else(|| "unknown".to_string());
+            let f = c
+                .frequency_hz
+                .map(mtbf::format_frequency)
+                .unwrap_or_else(|| "unknown".to_string());
             let first = if k == 0 {
-                format!(r##"<td rowspan="{}"><strong>{}</strong></td>"##, clocks.len(), esc(d))
+                format!(
+                    r##"<td rowspan="{}"><strong>{}</strong></td>"##,
+                    clocks.len(),
+                    esc(d)
+                )
             } else {
                 String::new()
             };
             let regs_cell = if k == 0 {
-                format!(r##"<td class="num" rowspan="{}">{regs}</td>"##, clocks.len())
+                format!(
+                    r##"<td class="num" rowspan="{}">{regs}</td>"##,
+                    clocks.len()
+                )
             } else {
                 String::new()
             };
@@ -455,7 +521,10 @@ fn crossings_table(a: &Analysis, config: &Config) -> String {
             dst = esc(&c.destination),
             bits = c.bits,
             scheme = esc(c.scheme.as_deref().unwrap_or("none")),
-            stages = c.stages.map(|n| n.to_string()).unwrap_or_else(|| "–".into()),
+            stages = c
+                .stages
+                .map(|n| n.to_string())
+                .unwrap_or_else(|| "–".into()),
             mtbf = esc(&crossing_mtbf(a, config, c).unwrap_or_else(|| "–".into())),
             at = esc(&location_text(&c.span)),
         );
@@ -481,13 +550,30 @@ fn excerpt(text: &str, span: &Span) -> Option<String> {
     for ln in from..=to {
         let line = lines[ln - 1];
         let hit = ln >= first && ln <= last;
-        let _ = write!(s, r##"<span class="line{}"><span class="ln">{ln}</span>"##, if hit { " hit" } else { "" });
+        let _ = write!(
+            s,
+            r##"<span class="line{}"><span class="ln">{ln}</span>"##,
+            if hit { " hit" } else { "" }
+        );
         if hit {
             let chars: Vec<char> = line.chars().collect();
-            let a = if ln == first { (span.column as usize).saturating_sub(1) } else { 0 }.min(chars.len());
-            let b = if ln == last { (span.end_column as usize).saturating_sub(1) } else { chars.len() }.clamp(a, chars.len());
-            let (x, y, z): (String, String, String) =
-                (chars[..a].iter().collect(), chars[a..b].iter().collect(), chars[b..].iter().collect());
+            let a = if ln == first {
+                (span.column as usize).saturating_sub(1)
+            } else {
+                0
+            }
+            .min(chars.len());
+            let b = if ln == last {
+                (span.end_column as usize).saturating_sub(1)
+            } else {
+                chars.len()
+            }
+            .clamp(a, chars.len());
+            let (x, y, z): (String, String, String) = (
+                chars[..a].iter().collect(),
+                chars[a..b].iter().collect(),
+                chars[b..].iter().collect(),
+            );
             s.push_str(&esc(&x));
             if !y.is_empty() {
                 let _ = write!(s, "<mark>{}</mark>", esc(&y));
@@ -530,7 +616,12 @@ fn finding_html(f: &Finding, read: &mut dyn FnMut(&str) -> Option<String>, base:
     if !f.related.is_empty() {
         s.push_str(r##"<ul class="related">"##);
         for r in &f.related {
-            let _ = write!(s, "<li>{} <span class=\"where\">{}</span></li>", esc(&r.message), esc(&location_text(&r.span)));
+            let _ = write!(
+                s,
+                "<li>{} <span class=\"where\">{}</span></li>",
+                esc(&r.message),
+                esc(&location_text(&r.span))
+            );
         }
         s.push_str("</ul>");
     }
@@ -538,7 +629,11 @@ fn finding_html(f: &Finding, read: &mut dyn FnMut(&str) -> Option<String>, base:
         let _ = write!(
             s,
             r##"<p class="waiver">Waived: {}</p>"##,
-            esc(f.waiver_reason.as_deref().filter(|r| !r.trim().is_empty()).unwrap_or("(no reason given)"))
+            esc(f
+                .waiver_reason
+                .as_deref()
+                .filter(|r| !r.trim().is_empty())
+                .unwrap_or("(no reason given)"))
         );
     }
     s.push_str("</article>");
@@ -546,7 +641,12 @@ fn finding_html(f: &Finding, read: &mut dyn FnMut(&str) -> Option<String>, base:
 }
 
 /// The whole report as one HTML document.
-pub fn render(a: &Analysis, config: &Config, read: &dyn Fn(&str) -> Option<String>, root: &Path) -> String {
+pub fn render(
+    a: &Analysis,
+    config: &Config,
+    read: &dyn Fn(&str) -> Option<String>,
+    root: &Path,
+) -> String {
     let doms = domains(a);
     let groups = edge_groups(a);
     let base = docs_base();
@@ -555,7 +655,12 @@ pub fn render(a: &Analysis, config: &Config, read: &dyn Fn(&str) -> Option<Strin
         .ok()
         .and_then(|p| p.file_name().map(|n| n.to_string_lossy().to_string()))
         .unwrap_or_else(|| root.display().to_string());
-    let live = |s: Severity| a.findings.iter().filter(|f| !f.waived && f.severity == s).count();
+    let live = |s: Severity| {
+        a.findings
+            .iter()
+            .filter(|f| !f.waived && f.severity == s)
+            .count()
+    };
     let waived = a.findings.iter().filter(|f| f.waived).count();
     let cross = |s: CrossingStatus| a.crossings.iter().filter(|c| c.status == s).count();
 
@@ -584,7 +689,11 @@ pub fn render(a: &Analysis, config: &Config, read: &dyn Fn(&str) -> Option<Strin
         cu = cross(CrossingStatus::Unsafe),
         cw = cross(CrossingStatus::Waived),
     );
-    let _ = write!(h, r##"<section id="domains"><h2>Clock domains</h2>{}</section>"##, domains_table(a, &doms));
+    let _ = write!(
+        h,
+        r##"<section id="domains"><h2>Clock domains</h2>{}</section>"##,
+        domains_table(a, &doms)
+    );
     let _ = write!(
         h,
         r##"<section id="map"><h2>Crossing map</h2><p class="caption">{} · {} (one edge per source domain, destination domain and status)</p>"##,
@@ -594,17 +703,33 @@ pub fn render(a: &Analysis, config: &Config, read: &dyn Fn(&str) -> Option<Strin
     if doms.is_empty() {
         h.push_str(r##"<p class="empty">Nothing to draw: no clock domains were found.</p>"##);
     } else {
-        let _ = write!(h, r##"<div class="map-wrap">{}{}</div>"##, svg_map(a, &doms), legend());
+        let _ = write!(
+            h,
+            r##"<div class="map-wrap">{}{}</div>"##,
+            svg_map(a, &doms),
+            legend()
+        );
     }
     h.push_str("</section>");
-    let _ = write!(h, r##"<section id="crossings"><h2>Crossings</h2>{}</section>"##, crossings_table(a, config));
-    let _ = write!(h, r##"<section id="findings"><h2>Findings ({})</h2>"##, a.findings.len());
+    let _ = write!(
+        h,
+        r##"<section id="crossings"><h2>Crossings</h2>{}</section>"##,
+        crossings_table(a, config)
+    );
+    let _ = write!(
+        h,
+        r##"<section id="findings"><h2>Findings ({})</h2>"##,
+        a.findings.len()
+    );
     if a.findings.is_empty() {
         h.push_str(r##"<p class="empty">No findings.</p>"##);
     }
     let mut cache: BTreeMap<String, Option<String>> = BTreeMap::new();
     let mut cached_read = |file: &str| -> Option<String> {
-        cache.entry(file.to_string()).or_insert_with(|| read(file)).clone()
+        cache
+            .entry(file.to_string())
+            .or_insert_with(|| read(file))
+            .clone()
     };
     for f in &a.findings {
         h.push_str(&finding_html(f, &mut cached_read, &base));
@@ -630,8 +755,15 @@ pub fn render(a: &Analysis, config: &Config, read: &dyn Fn(&str) -> Option<Strin
 }
 
 /// Write the report to `path`; the error is one line naming the file.
-pub fn write(path: &Path, a: &Analysis, config: &Config, read: &dyn Fn(&str) -> Option<String>, root: &Path) -> Result<(), String> {
-    std::fs::write(path, render(a, config, read, root)).map_err(|e| format!("{}: cannot write the report: {e}", path.display()))
+pub fn write(
+    path: &Path,
+    a: &Analysis,
+    config: &Config,
+    read: &dyn Fn(&str) -> Option<String>,
+    root: &Path,
+) -> Result<(), String> {
+    std::fs::write(path, render(a, config, read, root))
+        .map_err(|e| format!("{}: cannot write the report: {e}", path.display()))
 }
 
 #[cfg(test)]
@@ -640,7 +772,15 @@ mod tests {
     use seam_analysis::report::ClockInfo;
 
     fn span(file: &str, line: u32, column: u32, end_column: u32) -> Span {
-        Span { file: file.into(), start: 0, end: 0, line, column, end_line: line, end_column }
+        Span {
+            file: file.into(),
+            start: 0,
+            end: 0,
+            line,
+            column,
+            end_line: line,
+            end_column,
+        }
     }
 
     fn crossing(s: &str, d: &str, st: CrossingStatus) -> Crossing {
@@ -658,7 +798,13 @@ mod tests {
     }
 
     fn clock(name: &str, f: f64) -> ClockInfo {
-        ClockInfo { name: name.into(), frequency_hz: Some(f), group: None, root: format!("top.{name}"), domain: name.into() }
+        ClockInfo {
+            name: name.into(),
+            frequency_hz: Some(f),
+            group: None,
+            root: format!("top.{name}"),
+            domain: name.into(),
+        }
     }
 
     #[test]
@@ -674,7 +820,12 @@ mod tests {
             ],
             ..Analysis::default()
         };
-        let mut f = Finding::new("unsynchronized-crossing", Severity::Error, span("rtl/a.v", 2, 5, 7), "x <b> & y");
+        let mut f = Finding::new(
+            "unsynchronized-crossing",
+            Severity::Error,
+            span("rtl/a.v", 2, 5, 7),
+            "x <b> & y",
+        );
         f.signal = Some("x".into());
         a.findings = vec![f];
         let read = |_: &str| Some("module m;\n  q <= <b>d & e;\nendmodule\n".to_string());
@@ -683,7 +834,10 @@ mod tests {
         assert_eq!(html.matches(r##"<g class="crossing-edge"##).count(), 4);
         assert!(html.contains(r##"data-source="clk_a" data-destination="clk_b" data-status="synchronized" data-count="2""##));
         assert!(html.contains("x &lt;b&gt; &amp; y"));
-        assert!(html.contains("q <mark>&lt;=</mark> &lt;b&gt;d &amp; e;"), "{html}");
+        assert!(
+            html.contains("q <mark>&lt;=</mark> &lt;b&gt;d &amp; e;"),
+            "{html}"
+        );
         assert!(!html.contains("<b>"));
     }
 }

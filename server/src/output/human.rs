@@ -16,7 +16,10 @@ pub struct Sources {
 impl Sources {
     /// `read(display_path)` supplies a file's text (None when it cannot be read).
     pub fn new() -> Self {
-        Sources { files: SimpleFiles::new(), ids: HashMap::new() }
+        Sources {
+            files: SimpleFiles::new(),
+            ids: HashMap::new(),
+        }
     }
 
     fn id(&mut self, name: &str, read: &dyn Fn(&str) -> Option<String>) -> Option<usize> {
@@ -50,30 +53,50 @@ pub fn render(
             Severity::Info => CsSeverity::Note,
             Severity::Hint => CsSeverity::Help,
         };
-        let mut d = Diagnostic::new(sev).with_code(f.rule.clone()).with_message(&f.message);
+        let mut d = Diagnostic::new(sev)
+            .with_code(f.rule.clone())
+            .with_message(&f.message);
         let mut labels = Vec::new();
         let mut notes = Vec::new();
         if let Some(id) = src.id(&f.span.file, read) {
             let len = src.files.get(id).map(|x| x.source().len()).unwrap_or(0);
             labels.push(Label::primary(id, clamp(len, f.span.start, f.span.end)));
         } else {
-            notes.push(format!("at {}:{}:{}", f.span.file, f.span.line, f.span.column));
+            notes.push(format!(
+                "at {}:{}:{}",
+                f.span.file, f.span.line, f.span.column
+            ));
         }
         for r in &f.related {
             match src.id(&r.span.file, read) {
                 Some(id) => {
                     let len = src.files.get(id).map(|x| x.source().len()).unwrap_or(0);
-                    labels.push(Label::secondary(id, clamp(len, r.span.start, r.span.end)).with_message(&r.message));
+                    labels.push(
+                        Label::secondary(id, clamp(len, r.span.start, r.span.end))
+                            .with_message(&r.message),
+                    );
                 }
                 None => notes.push(format!("{}: {}:{}", r.message, r.span.file, r.span.line)),
             }
         }
         if f.waived {
-            notes.push(format!("waived: {}", f.waiver_reason.clone().unwrap_or_default()));
+            notes.push(format!(
+                "waived: {}",
+                f.waiver_reason.clone().unwrap_or_default()
+            ));
         }
         d = d.with_labels(labels).with_notes(notes);
         if term::emit(out, &config, &src.files, &d).is_err() {
-            writeln!(out, "{}:{}:{}: {}: {} [{}]", f.span.file, f.span.line, f.span.column, f.severity.as_str(), f.message, f.rule)?;
+            writeln!(
+                out,
+                "{}:{}:{}: {}: {} [{}]",
+                f.span.file,
+                f.span.line,
+                f.span.column,
+                f.severity.as_str(),
+                f.message,
+                f.rule
+            )?;
         }
     }
     Ok(())
@@ -81,7 +104,12 @@ pub fn render(
 
 /// "2 errors, 1 warning, 0 hints (3 waived)".
 pub fn summary(findings: &[Finding]) -> String {
-    let live = |s: Severity| findings.iter().filter(|f| !f.waived && f.severity == s).count();
+    let live = |s: Severity| {
+        findings
+            .iter()
+            .filter(|f| !f.waived && f.severity == s)
+            .count()
+    };
     let waived = findings.iter().filter(|f| f.waived).count();
     let plural = |n: usize, w: &str| format!("{n} {w}{}", if n == 1 { "" } else { "s" });
     format!(

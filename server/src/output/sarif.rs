@@ -19,8 +19,8 @@ use std::path::{Path, PathBuf};
 
 use seam_analysis::config::{self, Config, RULES};
 use seam_analysis::finding::{Finding, Severity};
-use seam_analysis::mtbf;
 use seam_analysis::model::Span;
+use seam_analysis::mtbf;
 use seam_analysis::report::{Analysis, CrossingStatus};
 use serde_json::{json, Value};
 use serde_sarif::sarif::{
@@ -51,7 +51,9 @@ pub fn encode_path(path: &str) -> String {
     let mut out = String::with_capacity(path.len());
     for b in path.bytes() {
         match b {
-            b'A'..=b'Z' | b'a'..=b'z' | b'0'..=b'9' | b'-' | b'.' | b'_' | b'~' | b'/' => out.push(b as char),
+            b'A'..=b'Z' | b'a'..=b'z' | b'0'..=b'9' | b'-' | b'.' | b'_' | b'~' | b'/' => {
+                out.push(b as char)
+            }
             _ => out.push_str(&format!("%{b:02X}")),
         }
     }
@@ -61,7 +63,9 @@ pub fn encode_path(path: &str) -> String {
 /// `file:` URI of a folder, with the trailing `/` SARIF wants for a base.
 pub fn folder_uri(dir: &Path) -> String {
     let abs = dir.canonicalize().unwrap_or_else(|_| {
-        std::env::current_dir().map(|c| c.join(dir)).unwrap_or_else(|_| dir.to_path_buf())
+        std::env::current_dir()
+            .map(|c| c.join(dir))
+            .unwrap_or_else(|_| dir.to_path_buf())
     });
     let mut p = abs.to_string_lossy().replace('\\', "/");
     if !p.starts_with('/') {
@@ -77,8 +81,13 @@ fn is_absolute_uri(s: &str) -> bool {
     match s.split_once(':') {
         Some((scheme, rest)) => {
             !scheme.is_empty()
-                && scheme.chars().next().is_some_and(|c| c.is_ascii_alphabetic())
-                && scheme.chars().all(|c| c.is_ascii_alphanumeric() || matches!(c, '+' | '-' | '.'))
+                && scheme
+                    .chars()
+                    .next()
+                    .is_some_and(|c| c.is_ascii_alphabetic())
+                && scheme
+                    .chars()
+                    .all(|c| c.is_ascii_alphanumeric() || matches!(c, '+' | '-' | '.'))
                 && !rest.is_empty()
                 && !s.chars().any(|c| c.is_whitespace())
         }
@@ -91,7 +100,11 @@ pub fn docs_base() -> String {
     if let Ok(b) = std::env::var("SEAM_DOCS_URI") {
         let b = b.trim();
         if is_absolute_uri(b) {
-            return if b.ends_with('/') { b.to_string() } else { format!("{b}/") };
+            return if b.ends_with('/') {
+                b.to_string()
+            } else {
+                format!("{b}/")
+            };
         }
     }
     let manifest = PathBuf::from(env!("CARGO_MANIFEST_DIR"));
@@ -130,11 +143,16 @@ fn pascal(id: &str) -> String {
 }
 
 fn text(s: impl Into<String>) -> Message {
-    Message { text: Some(s.into()), ..Message::default() }
+    Message {
+        text: Some(s.into()),
+        ..Message::default()
+    }
 }
 
 fn mms(text: impl Into<String>, markdown: Option<String>) -> MultiformatMessageString {
-    let mut m = MultiformatMessageString::builder().text(text.into()).build();
+    let mut m = MultiformatMessageString::builder()
+        .text(text.into())
+        .build();
     m.markdown = markdown;
     m
 }
@@ -190,7 +208,10 @@ fn rule_descriptor(id: &str, default: config::Severity, base: &str) -> Reporting
     if caution.is_some() {
         tags.push("cdc".to_string());
     }
-    r.properties = Some(PropertyBag { tags: Some(tags), ..PropertyBag::default() });
+    r.properties = Some(PropertyBag {
+        tags: Some(tags),
+        ..PropertyBag::default()
+    });
     r
 }
 
@@ -213,7 +234,10 @@ fn region(span: &Span, source: Option<&str>) -> Option<Region> {
         if a >= lines.len() {
             return None;
         }
-        Some(ArtifactContent { text: Some(lines[a..b.max(a + 1)].join("\n")), ..ArtifactContent::default() })
+        Some(ArtifactContent {
+            text: Some(lines[a..b.max(a + 1)].join("\n")),
+            ..ArtifactContent::default()
+        })
     });
     Some(Region {
         start_line: Some(span.line as i64),
@@ -231,8 +255,15 @@ fn artifact(file: &str) -> ArtifactLocation {
     let f = file.replace('\\', "/");
     let absolute = f.starts_with('/') || f.as_bytes().get(1) == Some(&b':');
     if absolute {
-        let p = if f.starts_with('/') { f } else { format!("/{f}") };
-        ArtifactLocation { uri: Some(format!("file://{}", encode_path(&p))), ..ArtifactLocation::default() }
+        let p = if f.starts_with('/') {
+            f
+        } else {
+            format!("/{f}")
+        };
+        ArtifactLocation {
+            uri: Some(format!("file://{}", encode_path(&p))),
+            ..ArtifactLocation::default()
+        }
     } else {
         ArtifactLocation {
             uri: Some(encode_path(&f)),
@@ -263,12 +294,24 @@ pub fn inline_waiver(source: &str, line: u32, rule: &str) -> Option<(u32, u32)> 
         if l == 0 {
             continue;
         }
-        let Some(t) = lines.get(l as usize - 1) else { continue };
-        let Some(at) = t.find("seam: allow(") else { continue };
+        let Some(t) = lines.get(l as usize - 1) else {
+            continue;
+        };
+        let Some(at) = t.find("seam: allow(") else {
+            continue;
+        };
         let rest = &t[at + "seam: allow(".len()..];
-        let Some(close) = rest.find(')') else { continue };
-        if rest[..close].split(',').any(|r| r.trim() == rule || r.trim() == "all") {
-            let start = t[..at].rfind("//").or_else(|| t[..at].rfind("/*")).unwrap_or(at);
+        let Some(close) = rest.find(')') else {
+            continue;
+        };
+        if rest[..close]
+            .split(',')
+            .any(|r| r.trim() == rule || r.trim() == "all")
+        {
+            let start = t[..at]
+                .rfind("//")
+                .or_else(|| t[..at].rfind("/*"))
+                .unwrap_or(at);
             return Some((l, t[..start].chars().count() as u32 + 1));
         }
     }
@@ -277,7 +320,11 @@ pub fn inline_waiver(source: &str, line: u32, rule: &str) -> Option<(u32, u32)> 
 
 fn suppression(f: &Finding, source: Option<&str>) -> Suppression {
     let inline = source.and_then(|s| inline_waiver(s, f.span.line, &f.rule));
-    let kind = if inline.is_some() { "inSource" } else { "external" };
+    let kind = if inline.is_some() {
+        "inSource"
+    } else {
+        "external"
+    };
     let mut s = Suppression::builder().kind(json!(kind)).build();
     s.status = Some(json!("accepted"));
     s.justification = f.waiver_reason.clone().filter(|r| !r.trim().is_empty());
@@ -292,7 +339,11 @@ fn suppression(f: &Finding, source: Option<&str>) -> Suppression {
             end_column: column,
         };
         let mut loc = location(&span, Some("waiver comment"), None, None);
-        if let Some(r) = loc.physical_location.as_mut().and_then(|p| p.region.as_mut()) {
+        if let Some(r) = loc
+            .physical_location
+            .as_mut()
+            .and_then(|p| p.region.as_mut())
+        {
             r.end_column = None;
             r.end_line = None;
         }
@@ -303,7 +354,9 @@ fn suppression(f: &Finding, source: Option<&str>) -> Suppression {
 
 fn result(f: &Finding, rule_index: Option<usize>, sources: &mut Sources) -> SarifResult {
     let src = sources.get(&f.span.file);
-    let mut r = SarifResult::builder().message(text(f.message.clone())).build();
+    let mut r = SarifResult::builder()
+        .message(text(f.message.clone()))
+        .build();
     r.rule_id = Some(f.rule.clone());
     r.rule_index = rule_index.map(|i| i as i64);
     r.level = Some(level(f.severity));
@@ -315,20 +368,36 @@ fn result(f: &Finding, rule_index: Option<usize>, sources: &mut Sources) -> Sari
             .enumerate()
             .map(|(i, rel)| {
                 let rs = sources.get(&rel.span.file);
-                location(&rel.span, Some(&rel.message), rs.as_deref(), Some(i as i64 + 1))
+                location(
+                    &rel.span,
+                    Some(&rel.message),
+                    rs.as_deref(),
+                    Some(i as i64 + 1),
+                )
             })
             .collect();
         r.related_locations = Some(related);
     }
-    r.suppressions = Some(if f.waived { vec![suppression(f, src.as_deref())] } else { Vec::new() });
+    r.suppressions = Some(if f.waived {
+        vec![suppression(f, src.as_deref())]
+    } else {
+        Vec::new()
+    });
     let mut props = BTreeMap::new();
     props.insert("severity".to_string(), json!(f.severity.as_str()));
-    for (k, v) in [("signal", &f.signal), ("sourceDomain", &f.source_domain), ("destinationDomain", &f.destination_domain)] {
+    for (k, v) in [
+        ("signal", &f.signal),
+        ("sourceDomain", &f.source_domain),
+        ("destinationDomain", &f.destination_domain),
+    ] {
         if let Some(v) = v {
             props.insert(k.to_string(), json!(v));
         }
     }
-    r.properties = Some(PropertyBag { additional_properties: props, ..PropertyBag::default() });
+    r.properties = Some(PropertyBag {
+        additional_properties: props,
+        ..PropertyBag::default()
+    });
     r
 }
 
@@ -349,18 +418,35 @@ impl Sources<'_> {
 }
 
 /// The SARIF log of one run.
-pub fn log(a: &Analysis, config: &Config, read: &dyn Fn(&str) -> Option<String>, root: &Path) -> Sarif {
+pub fn log(
+    a: &Analysis,
+    config: &Config,
+    read: &dyn Fn(&str) -> Option<String>,
+    root: &Path,
+) -> Sarif {
     let base = docs_base();
-    let rules: Vec<ReportingDescriptor> = RULES.iter().map(|(id, sev)| rule_descriptor(id, *sev, &base)).collect();
+    let rules: Vec<ReportingDescriptor> = RULES
+        .iter()
+        .map(|(id, sev)| rule_descriptor(id, *sev, &base))
+        .collect();
     let mut driver = ToolComponent::builder().name("Seam").build();
     driver.version = Some(env!("CARGO_PKG_VERSION").to_string());
     driver.semantic_version = Some(env!("CARGO_PKG_VERSION").to_string());
-    driver.full_name = Some(format!("Seam {} clock-domain-crossing checker", env!("CARGO_PKG_VERSION")));
-    driver.short_description = Some(mms("Clock-domain-crossing checks for Verilog and SystemVerilog.", None));
+    driver.full_name = Some(format!(
+        "Seam {} clock-domain-crossing checker",
+        env!("CARGO_PKG_VERSION")
+    ));
+    driver.short_description = Some(mms(
+        "Clock-domain-crossing checks for Verilog and SystemVerilog.",
+        None,
+    ));
     driver.full_description = Some(mms(format!("{CDC_CAUTION} {}", mtbf::CAUTION), None));
     driver.rules = Some(rules);
 
-    let mut sources = Sources { read, cache: BTreeMap::new() };
+    let mut sources = Sources {
+        read,
+        cache: BTreeMap::new(),
+    };
     let results: Vec<SarifResult> = a
         .findings
         .iter()
@@ -394,7 +480,10 @@ pub fn log(a: &Analysis, config: &Config, read: &dyn Fn(&str) -> Option<String>,
     if !overrides.is_empty() {
         invocation.rule_configuration_overrides = Some(overrides);
     }
-    invocation.working_directory = Some(ArtifactLocation { uri: Some(folder_uri(root)), ..ArtifactLocation::default() });
+    invocation.working_directory = Some(ArtifactLocation {
+        uri: Some(folder_uri(root)),
+        ..ArtifactLocation::default()
+    });
 
     let mut bases = BTreeMap::new();
     bases.insert(
@@ -422,20 +511,33 @@ pub fn log(a: &Analysis, config: &Config, read: &dyn Fn(&str) -> Option<String>,
         }),
     );
 
-    let mut run = Run::builder().tool(Tool::builder().driver(driver).build()).build();
+    let mut run = Run::builder()
+        .tool(Tool::builder().driver(driver).build())
+        .build();
     run.results = Some(results);
     run.invocations = Some(vec![invocation]);
     run.original_uri_base_ids = Some(bases);
     run.column_kind = Some(json!("unicodeCodePoints"));
-    run.properties = Some(PropertyBag { additional_properties: props, ..PropertyBag::default() });
+    run.properties = Some(PropertyBag {
+        additional_properties: props,
+        ..PropertyBag::default()
+    });
 
-    let mut log = Sarif::builder().version(json!("2.1.0")).runs(vec![run]).build();
+    let mut log = Sarif::builder()
+        .version(json!("2.1.0"))
+        .runs(vec![run])
+        .build();
     log.schema = Some(SCHEMA_URI.to_string());
     log
 }
 
 /// The SARIF log as pretty JSON text.
-pub fn render(a: &Analysis, config: &Config, read: &dyn Fn(&str) -> Option<String>, root: &Path) -> String {
+pub fn render(
+    a: &Analysis,
+    config: &Config,
+    read: &dyn Fn(&str) -> Option<String>,
+    root: &Path,
+) -> String {
     serde_json::to_string_pretty(&log(a, config, read, root)).unwrap_or_else(|_| "{}".to_string())
 }
 

@@ -43,7 +43,9 @@ pub fn check(ctx: &Ctx, out: &mut Vec<Finding>) {
         }
     }
     for c in &ctx.n.combs {
-        let target_is_clock = crate::design::graph::targets(&c.target).iter().any(|t| ctx.g.sig(t).is_some_and(|s| ctx.clock_nets.contains(&s)));
+        let target_is_clock = crate::design::graph::targets(&c.target)
+            .iter()
+            .any(|t| ctx.g.sig(t).is_some_and(|s| ctx.clock_nets.contains(&s)));
         if target_is_clock || c.port {
             continue;
         }

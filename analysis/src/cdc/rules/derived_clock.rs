@@ -23,9 +23,20 @@ pub fn check(ctx: &Ctx, out: &mut Vec<Finding>) {
         let rc = &ctx.reg_clock[&s];
         let divider = rc.trace.derived[0];
         let p = &ctx.n.procs[pi];
-        let clock_text = p.clock.as_ref().map(|(e, _)| crate::model::render(e)).unwrap_or_default();
-        let local = clock_text.rsplit('.').next().unwrap_or(&clock_text).to_string();
-        let dom = rc.domain.clone().unwrap_or_else(|| "an unknown domain".into());
+        let clock_text = p
+            .clock
+            .as_ref()
+            .map(|(e, _)| crate::model::render(e))
+            .unwrap_or_default();
+        let local = clock_text
+            .rsplit('.')
+            .next()
+            .unwrap_or(&clock_text)
+            .to_string();
+        let dom = rc
+            .domain
+            .clone()
+            .unwrap_or_else(|| "an unknown domain".into());
         let mut f = Finding::new(
             ID,
             Severity::Warning,

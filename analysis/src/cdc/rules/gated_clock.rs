@@ -23,7 +23,10 @@ pub fn check(ctx: &Ctx, out: &mut Vec<Finding>) {
             if !seen.insert((span.file.clone(), span.start)) {
                 continue;
             }
-            let en: Vec<String> = enables.iter().map(|e| render(e).rsplit('.').next().unwrap_or("").to_string()).collect();
+            let en: Vec<String> = enables
+                .iter()
+                .map(|e| render(e).rsplit('.').next().unwrap_or("").to_string())
+                .collect();
             let dom = rc.domain.clone().unwrap_or_else(|| "?".into());
             let mut f = Finding::new(
                 ID,

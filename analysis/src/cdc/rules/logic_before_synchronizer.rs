@@ -14,8 +14,17 @@ pub fn check(ctx: &Ctx, cx: &Crossings, out: &mut Vec<Finding>) {
         if d.qualified || in_trusted(ctx, d.reg) {
             continue;
         }
-        let Some((_, DIn::Logic { foreign, foreign_bits }, len)) =
-            d.bits.iter().find(|(_, din, len)| matches!(din, DIn::Logic { .. }) && *len >= 2)
+        let Some((
+            _,
+            DIn::Logic {
+                foreign,
+                foreign_bits,
+            },
+            len,
+        )) = d
+            .bits
+            .iter()
+            .find(|(_, din, len)| matches!(din, DIn::Logic { .. }) && *len >= 2)
         else {
             continue;
         };

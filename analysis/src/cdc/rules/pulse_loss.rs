@@ -21,7 +21,12 @@ fn is_pulse(ctx: &Ctx, s: SigId) -> bool {
     let assigns: Vec<_> = ctx.n.procs[pi]
         .assigns
         .iter()
-        .filter(|a| !a.in_reset && crate::design::graph::targets(&a.target).iter().any(|t| ctx.g.sig(t) == Some(s)))
+        .filter(|a| {
+            !a.in_reset
+                && crate::design::graph::targets(&a.target)
+                    .iter()
+                    .any(|t| ctx.g.sig(t) == Some(s))
+        })
         .collect();
     if assigns.is_empty() {
         return false;
@@ -36,7 +41,11 @@ fn is_pulse(ctx: &Ctx, s: SigId) -> bool {
     let strobe = consts.iter().all(|c| c.is_some())
         && consts.contains(&Some(1))
         && consts.contains(&Some(0))
-        && assigns.iter().zip(&consts).filter(|(_, c)| **c == Some(1)).all(|(a, _)| !a.guards.is_empty());
+        && assigns
+            .iter()
+            .zip(&consts)
+            .filter(|(_, c)| **c == Some(1))
+            .all(|(a, _)| !a.guards.is_empty());
     let edge_detect = assigns.len() == 1
         && matches!(&assigns[0].rhs, Expr::Binary { op, lhs, rhs } if (op == "&" || op == "&&")
             && (matches!(&**rhs, Expr::Unary { op, .. } if op == "~" || op == "!")
@@ -55,12 +64,16 @@ pub fn check(ctx: &Ctx, cx: &Crossings, out: &mut Vec<Finding>) {
             continue;
         }
         for (_, din, len) in &d.bits {
-            let DIn::Single { leaf, .. } = din else { continue };
+            let DIn::Single { leaf, .. } = din else {
+                continue;
+            };
             let src = leaf.0;
             if *len < 2 || !ctx.g.is_reg(src) || !is_pulse(ctx, src) {
                 continue;
             }
-            let (Some(fs), Some(fd)) = (freq(ctx, src), freq(ctx, d.reg)) else { continue };
+            let (Some(fs), Some(fd)) = (freq(ctx, src), freq(ctx, d.reg)) else {
+                continue;
+            };
             if fs <= fd {
                 continue;
             }

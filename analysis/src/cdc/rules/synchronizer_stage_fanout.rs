@@ -19,7 +19,9 @@ fn reads(ctx: &Ctx, e: &Expr, out: &mut Vec<(SigId, Option<u32>)>) {
     match e {
         Expr::Select { base, sel } if matches!(**base, Expr::Ident { .. }) => {
             match ctx.g.bit_of(e, 0) {
-                BitSrc::Copy(s, b) if matches!(sel.as_ref(), Select::Bit { .. }) => out.push((s, Some(b))),
+                BitSrc::Copy(s, b) if matches!(sel.as_ref(), Select::Bit { .. }) => {
+                    out.push((s, Some(b)))
+                }
                 _ => {
                     if let Some(s) = ctx.g.sig(base) {
                         out.push((s, None));
@@ -57,8 +59,12 @@ fn reads(ctx: &Ctx, e: &Expr, out: &mut Vec<(SigId, Option<u32>)>) {
 pub fn check(ctx: &Ctx, cx: &Crossings, out: &mut Vec<Finding>) {
     let min = ctx.config.synchronizers.min_stages.max(1);
     // every early stage bit of a chain that reaches min_stages
-    let mut early: Vec<((SigId, u32), u32)> =
-        cx.stage_bits.iter().filter(|(_, st)| st.0 < min && st.1 >= min).map(|(b, st)| (*b, st.0)).collect();
+    let mut early: Vec<((SigId, u32), u32)> = cx
+        .stage_bits
+        .iter()
+        .filter(|(_, st)| st.0 < min && st.1 >= min)
+        .map(|(b, st)| (*b, st.0))
+        .collect();
     early.sort();
     if early.is_empty() {
         return;
@@ -72,14 +78,18 @@ pub fn check(ctx: &Ctx, cx: &Crossings, out: &mut Vec<Finding>) {
             for g in &a.guards {
                 reads(ctx, &g.cond, &mut r);
             }
-            let target = crate::design::graph::targets(&a.target).first().and_then(|t| ctx.g.sig(t));
+            let target = crate::design::graph::targets(&a.target)
+                .first()
+                .and_then(|t| ctx.g.sig(t));
             places.push((r, target, a.span.clone()));
         }
     }
     for c in &ctx.n.combs {
         let mut r = Vec::new();
         reads(ctx, &c.rhs, &mut r);
-        let target = crate::design::graph::targets(&c.target).first().and_then(|t| ctx.g.sig(t));
+        let target = crate::design::graph::targets(&c.target)
+            .first()
+            .and_then(|t| ctx.g.sig(t));
         places.push((r, target, c.span.clone()));
     }
     let mut reported: HashSet<SigId> = HashSet::new();

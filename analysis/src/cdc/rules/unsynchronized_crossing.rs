@@ -15,10 +15,20 @@ pub fn check(ctx: &Ctx, cx: &Crossings, out: &mut Vec<Finding>, crossings: &mut 
     for d in &cx.dests {
         let src_dom = d.sources.keys().next().cloned().unwrap_or_default();
         let src = d.sources.values().flatten().next().copied();
-        let any_logic_chain = d.bits.iter().any(|(_, din, len)| matches!(din, DIn::Logic { .. }) && *len >= 2);
-        let shortest = d.bits.iter().filter(|(_, din, _)| matches!(din, DIn::Single { .. })).map(|b| b.2).min();
+        let any_logic_chain = d
+            .bits
+            .iter()
+            .any(|(_, din, len)| matches!(din, DIn::Logic { .. }) && *len >= 2);
+        let shortest = d
+            .bits
+            .iter()
+            .filter(|(_, din, _)| matches!(din, DIn::Single { .. }))
+            .map(|b| b.2)
+            .min();
         let synced = !d.bits.is_empty()
-            && d.bits.iter().all(|(_, din, len)| matches!(din, DIn::Single { .. }) && *len >= min);
+            && d.bits
+                .iter()
+                .all(|(_, din, len)| matches!(din, DIn::Single { .. }) && *len >= min);
         let is_stage_later = cx.stage_bits.keys().any(|(s, _)| *s == d.reg) && synced;
         let width = ctx.n.sigs[d.reg].width.unwrap_or(1);
         let mut c = Crossing {
@@ -57,9 +67,18 @@ pub fn check(ctx: &Ctx, cx: &Crossings, out: &mut Vec<Finding>, crossings: &mut 
             continue;
         }
         let reg = short(ctx, d.reg);
-        let srcs: Vec<String> = d.sources.values().flatten().map(|s| short(ctx, *s)).collect();
+        let srcs: Vec<String> = d
+            .sources
+            .values()
+            .flatten()
+            .map(|s| short(ctx, *s))
+            .collect();
         let memory = ctx.n.sigs[d.reg].memory;
-        let what = if memory { "memory write port" } else { "register" };
+        let what = if memory {
+            "memory write port"
+        } else {
+            "register"
+        };
         let reason = match shortest {
             Some(n) if n > 1 => format!("a chain of {n} stage(s), fewer than `min_stages` = {min}"),
             _ => "no synchronizer".to_string(),
@@ -79,11 +98,23 @@ pub fn check(ctx: &Ctx, cx: &Crossings, out: &mut Vec<Finding>, crossings: &mut 
         f.source_domain = Some(src_dom.clone());
         f.destination_domain = Some(d.domain.clone());
         for s in d.sources.values().flatten() {
-            f.related.push(related(ctx, *s, if ctx.g.is_reg(*s) { "source register" } else { "asynchronous input" }));
+            f.related.push(related(
+                ctx,
+                *s,
+                if ctx.g.is_reg(*s) {
+                    "source register"
+                } else {
+                    "asynchronous input"
+                },
+            ));
         }
         for (_, din, _) in &d.bits {
             if let DIn::Single { hops, .. } = din {
-                for h in hops.iter().filter(|h| ctx.n.sigs[**h].span.line > 0).take(4) {
+                for h in hops
+                    .iter()
+                    .filter(|h| ctx.n.sigs[**h].span.line > 0)
+                    .take(4)
+                {
                     f.related.push(related(ctx, *h, "through"));
                 }
                 break;
@@ -94,18 +125,28 @@ pub fn check(ctx: &Ctx, cx: &Crossings, out: &mut Vec<Finding>, crossings: &mut 
     }
     // enables of clock gates are data sampled by the gated clock
     for (s, rc) in &ctx.reg_clock {
-        let Some(dom) = rc.domain.as_deref() else { continue };
-        let enables = rc.trace.cell_enables.iter().map(|(sp, e)| (sp, e)).chain(rc.trace.gates.iter().flat_map(|(sp, es)| es.iter().map(move |e| (sp, e))));
+        let Some(dom) = rc.domain.as_deref() else {
+            continue;
+        };
+        let enables = rc.trace.cell_enables.iter().map(|(sp, e)| (sp, e)).chain(
+            rc.trace
+                .gates
+                .iter()
+                .flat_map(|(sp, es)| es.iter().map(move |e| (sp, e))),
+        );
         for (span, e) in enables {
             for id in e.idents() {
                 let Some(es) = ctx.g.sig(id) else { continue };
                 for &l in ctx.leaves(es).iter() {
-                    let Some(ld) = ctx.leaf_domain(l) else { continue };
+                    let Some(ld) = ctx.leaf_domain(l) else {
+                        continue;
+                    };
                     if ld == dom || ctx.is_static(l) {
                         continue;
                     }
                     // an enable that is itself a synchronizer stage output is fine
-                    let staged = (0..ctx.n.sigs[l].width.unwrap_or(1)).any(|b| cx.stage_bits.get(&(l, b)).is_some_and(|st| st.0 >= min));
+                    let staged = (0..ctx.n.sigs[l].width.unwrap_or(1))
+                        .any(|b| cx.stage_bits.get(&(l, b)).is_some_and(|st| st.0 >= min));
                     if staged {
                         continue;
                     }

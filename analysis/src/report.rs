@@ -50,6 +50,77 @@ pub struct RegisterInfo {
     pub reset: Option<String>,
     /// Synchronizer stage `(k, n, source domain)` when the register is a stage.
     pub stage: Option<(u32, u32, String)>,
+    /// Where the async reset comes from, structured (the reset tree of this instance).
+    #[serde(default)]
+    pub reset_source: Option<ResetSource>,
+}
+
+/// The reset tree of one register's asynchronous reset (or set), per instance.
+#[derive(Clone, Debug, Default, PartialEq, Serialize, Deserialize)]
+pub struct ResetSource {
+    /// The control as the process names it (`rst_n`).
+    pub signal: String,
+    pub active_high: bool,
+    /// Logic other than inverters sits between the leaves and the flop.
+    pub through_logic: bool,
+    /// Where the tree ends: inputs, registers, reset synchronizers, undriven nets.
+    pub leaves: Vec<ResetLeafInfo>,
+    /// Every leaf is released in step with the register's own clock.
+    pub synchronized: bool,
+    /// The register is itself a stage of a reset synchronizer (its raw reset is intended).
+    pub synchronizer_stage: bool,
+    /// Stage `(k, n)` when this register is a reset synchronizer stage (of a chain of n).
+    #[serde(default)]
+    pub own_stage: Option<(u32, u32)>,
+}
+
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum ResetLeafKind {
+    TopInput,
+    Register,
+    ResetSynchronizer,
+    Undriven,
+}
+
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct ResetLeafInfo {
+    /// Hierarchical name without the top (`u_rst.sync_q[1]`).
+    pub name: String,
+    pub kind: ResetLeafKind,
+    pub domain: Option<String>,
+    /// For a reset synchronizer: which stage is used.
+    pub stages: Option<u32>,
+}
+
+impl ResetSource {
+    /// One line: where the reset comes from and its polarity, e.g.
+    /// `top-level input rst_n (active low)`.
+    pub fn text(&self) -> String {
+        let leaf = |l: &ResetLeafInfo| -> String {
+            let dom = l.domain.as_deref().map(|d| format!(" of {d}")).unwrap_or_default();
+            match l.kind {
+                ResetLeafKind::TopInput => format!("top-level input {}", l.name),
+                ResetLeafKind::Register => format!("register {}{dom}", l.name),
+                ResetLeafKind::ResetSynchronizer => format!(
+                    "reset synchronizer {}{dom} (stage {})",
+                    l.name,
+                    l.stages.unwrap_or(1)
+                ),
+                ResetLeafKind::Undriven => format!("undriven net {} (a black box?)", l.name),
+            }
+        };
+        let parts: Vec<String> = self.leaves.iter().map(leaf).collect();
+        let src = match (parts.as_slice(), self.through_logic) {
+            ([], _) => "a constant".to_string(),
+            ([one], false) => one.clone(),
+            (_, _) => format!("logic of {}", parts.join(", ")),
+        };
+        format!(
+            "{src} (active {})",
+            if self.active_high { "high" } else { "low" }
+        )
+    }
 }
 
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize)]

@@ -2,6 +2,7 @@
 //! every crossing once; each rule in `rules/` turns that into findings of one kind.
 
 pub mod crossings;
+pub mod resets;
 pub mod rules;
 pub mod waivers;
 
@@ -17,6 +18,10 @@ pub struct CdcResult {
     pub crossings: Vec<Crossing>,
     /// Per register: (stage k, of N, source domain) of its first stage bit.
     pub stages: HashMap<SigId, (u32, u32, String)>,
+    /// Per register: its reset tree (registers with an asynchronous control only).
+    pub resets: HashMap<SigId, crate::report::ResetSource>,
+    /// Per register: (stage k, of N) of its first reset-synchronizer stage bit.
+    pub reset_stages: HashMap<SigId, (u32, u32)>,
 }
 
 /// Hierarchical name without the top module: `u_log.alarm`.
@@ -50,6 +55,13 @@ pub fn run(ctx: &Ctx) -> CdcResult {
     rules::gated_clock::check(ctx, &mut findings);
     rules::clock_as_data::check(ctx, &mut findings);
     rules::pulse_loss::check(ctx, &cx, &mut findings);
+    let rs = resets::Resets::compute(ctx, &cx);
+    rules::async_reset_release::check(ctx, &rs, &mut findings);
+    let reset_stages: HashMap<SigId, (u32, u32)> = rs
+        .sources
+        .iter()
+        .filter_map(|(s, src)| src.own_stage.map(|st| (*s, st)))
+        .collect();
     let mut stages: HashMap<SigId, (u32, u32, String)> = HashMap::new();
     for ((s, _), st) in &cx.stage_bits {
         let e = stages.entry(*s).or_insert_with(|| st.clone());
@@ -71,5 +83,7 @@ pub fn run(ctx: &Ctx) -> CdcResult {
         findings,
         crossings,
         stages,
+        resets: rs.sources,
+        reset_stages,
     }
 }

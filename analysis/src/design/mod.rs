@@ -334,29 +334,9 @@ fn analyze_here(models: &[FileModel], config: &Config) -> Analysis {
     for s in regs {
         let sig = &n.sigs[s];
         let rc = &ctx.reg_clock[&s];
-        let pi = ctx.g.reg_proc[&s];
-        let reset = n.procs[pi].async_controls.first().map(|(e, high)| {
-            // name the reset by where it comes from: a top input, a register, or logic
-            let src = match ctx.g.bit_of(e, 0) {
-                graph::BitSrc::Copy(s, b) => {
-                    let (l, _, _) = ctx.g.through_copies(s, b);
-                    let name = &n.sigs[l].name;
-                    let what = if n.top_inputs.contains(&l) {
-                        "top-level input"
-                    } else if ctx.g.is_reg(l) {
-                        "register"
-                    } else {
-                        "logic"
-                    };
-                    format!(
-                        "{what} {}",
-                        name.split_once('.').map(|(_, r)| r).unwrap_or(name)
-                    )
-                }
-                _ => format!("logic {}", crate::model::render(e)),
-            };
-            format!("{src} (active {})", if *high { "high" } else { "low" })
-        });
+        // the reset tree of this instance (cdc::resets): where the async reset comes from
+        let reset_source = cdc.resets.get(&s).cloned();
+        let reset = reset_source.as_ref().map(|r| r.text());
         out.registers.push(RegisterInfo {
             instance: n.insts[sig.inst].path.clone(),
             module: n.insts[sig.inst].module.clone(),
@@ -368,6 +348,7 @@ fn analyze_here(models: &[FileModel], config: &Config) -> Analysis {
             derived_from: rc.trace.derived.first().map(|d| n.sigs[*d].name.clone()),
             reset,
             stage: cdc.stages.get(&s).cloned(),
+            reset_source,
         });
     }
     for (s, sig) in n.sigs.iter().enumerate() {
@@ -421,6 +402,9 @@ fn analyze_here(models: &[FileModel], config: &Config) -> Analysis {
                 "synchronizer stage {} of {} from {}",
                 st.0, st.1, st.2
             ));
+        }
+        if let Some((k, of)) = cdc.reset_stages.get(&s) {
+            notes.push(format!("reset synchronizer stage {k} of {of}"));
         }
         out.signals.push(SignalInfo {
             instance: n.insts[sig.inst].path.clone(),

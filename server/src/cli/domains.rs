@@ -59,6 +59,7 @@ pub fn run(a: DomainsArgs) -> ExitCode {
                     "file": r.span.file, "line": r.span.line,
                     "clock": r.clock, "edge": edge(r.edge), "domain": r.domain,
                     "derived_from": r.derived_from, "reset": r.reset,
+                    "reset_source": r.reset_source,
                     "stage": r.stage.as_ref().map(|(k, n, from)| json!({"stage": k, "of": n, "from": from})),
                 })).collect::<Vec<_>>(),
             });
@@ -84,6 +85,13 @@ pub fn run(a: DomainsArgs) -> ExitCode {
                 }
                 if let Some(rs) = &r.reset {
                     extra.push_str(&format!(" reset {rs}"));
+                }
+                if let Some(src) = &r.reset_source {
+                    if let Some((k, n)) = src.own_stage {
+                        extra.push_str(&format!(" [reset synchronizer stage {k} of {n}]"));
+                    } else if !src.synchronized && r.domain.is_some() {
+                        extra.push_str(" [released asynchronously]");
+                    }
                 }
                 println!(
                     "  {:<32} {:<10} {} {}{}",

@@ -79,6 +79,17 @@ fn register_lines(a: &Analysis, r: &RegisterInfo, figures: &mut bool) -> Vec<Str
         Some(rs) => out.push(format!("Reset: {rs}")),
         None => out.push("Reset: none asynchronous".into()),
     }
+    if let (Some(src), Some(d)) = (&r.reset_source, &r.domain) {
+        if let Some((k, n)) = src.own_stage {
+            out.push(format!("Reset synchronizer: stage {k} of {n}"));
+        } else if src.synchronized {
+            out.push(format!("Reset release: in step with `{d}`"));
+        } else {
+            out.push(format!(
+                "Reset release: asynchronous to `{d}` (see `async-reset-release`)"
+            ));
+        }
+    }
     if let Some((k, n, from)) = &r.stage {
         out.push(format!("Synchronizer: stage {k} of {n} from `{from}`"));
     }

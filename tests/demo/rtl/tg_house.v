@@ -2,7 +2,8 @@
 module tg_house (
     input            clk_rtc,
     input            clk_sys,
-    input            rst_n,
+    input            rst_n,       // clk_sys domain reset (synchronized in tg_top)
+    input            rst_rtc_n,   // clk_rtc domain reset (synchronized in tg_top)
     input            log_en,
     input            batt_low,
     output reg [3:0] strobes,
@@ -24,8 +25,8 @@ module tg_house (
 
   // BUG (warning): the strobe crosses to the 32.768 kHz domain through a level chain
   reg strobe_s1, strobe_s2;
-  always @(posedge clk_rtc or negedge rst_n)
-    if (!rst_n) begin
+  always @(posedge clk_rtc or negedge rst_rtc_n)
+    if (!rst_rtc_n) begin
       strobe_s1 <= 1'b0;
       strobe_s2 <= 1'b0;
       strobes   <= 4'd0;
@@ -41,8 +42,8 @@ module tg_house (
 
   // batt_low is asynchronous: a chain on the gated clock, but stage 1 is also read directly
   reg batt_s1, batt_s2;
-  always @(posedge clk_batt or negedge rst_n)
-    if (!rst_n) begin
+  always @(posedge clk_batt or negedge rst_rtc_n)
+    if (!rst_rtc_n) begin
       batt_s1   <= 1'b0;
       batt_s2   <= 1'b0;
       batt_flag <= 1'b0;

@@ -1,5 +1,6 @@
 //! One file per rule. Each `check` reads the shared classification and adds its findings.
 
+pub mod async_reset_release;
 pub mod clock_as_data;
 pub mod derived_clock;
 pub mod gated_clock;

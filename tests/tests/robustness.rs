@@ -238,3 +238,30 @@ fn usage_and_config_errors_exit_2_with_one_line() {
     let out = seam(&["check", "--format", "yaml"], d.path());
     assert_eq!(out.status.code(), Some(2));
 }
+
+/// A clock that passes arithmetic or a comparison (`clk_pump == 1'b1`) on its way to a flop
+/// once sent clock tracing into unbounded recursion (a stack overflow on OpenTitan's
+/// spi_device). Now the clock is still traced to its root, through the gate.
+#[test]
+fn clock_through_comparison_and_arithmetic() {
+    let src = "module pump_ctl(input wire clk_pump, input wire d, output reg q, output reg r);\n  \
+wire k1 = (clk_pump == 1'b1);\n  wire k2 = clk_pump + 1'b0;\n  \
+always @(posedge k1) q <= d;\n  always @(posedge k2) r <= d;\nendmodule\n";
+    let d = one_file("pump_ctl.v", src.as_bytes());
+    let (v, code, _) = check_json(d.path(), &[]);
+    assert!(code == 0 || code == 1, "exit {code}: {v}");
+    assert!(
+        !findings(&v).iter().any(|f| f["message"]
+            .as_str()
+            .unwrap_or("")
+            .contains("internal error")),
+        "{v}"
+    );
+    let out = seam(&["domains", "--format", "json"], d.path());
+    let dv: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let regs = dv["registers"].as_array().unwrap();
+    assert_eq!(regs.len(), 2, "{dv}");
+    for r in regs {
+        assert_eq!(r["clock"], "clk_pump", "{dv}");
+    }
+}

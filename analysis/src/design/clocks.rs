@@ -118,6 +118,9 @@ impl<'a> Ctx<'a> {
     }
 
     fn trace_expr(&self, rhs: &Expr, span: &Span, t: &mut ClockTrace, depth: u32) {
+        if depth > 256 {
+            return;
+        }
         match rhs {
             Expr::Unary { op, arg } if op == "~" || op == "!" => {
                 t.inverted = !t.inverted;
@@ -215,14 +218,25 @@ impl<'a> Ctx<'a> {
     }
 }
 
-/// Operands of a tree of binary logic operators.
+/// Operands of a tree of binary logic operators. Any other binary operator (arithmetic, a
+/// comparison) still splits into its two sides, so that tracing always makes progress.
 fn operands(e: &Expr) -> Vec<&Expr> {
-    match e {
-        Expr::Binary { op, lhs, rhs } if matches!(op.as_str(), "&" | "|" | "^" | "&&" | "||") => {
-            let mut v = operands(lhs);
-            v.extend(operands(rhs));
-            v
+    fn logic(e: &Expr) -> Vec<&Expr> {
+        match e {
+            Expr::Binary { op, lhs, rhs }
+                if matches!(op.as_str(), "&" | "|" | "^" | "&&" | "||") =>
+            {
+                let mut v = logic(lhs);
+                v.extend(logic(rhs));
+                v
+            }
+            _ => vec![e],
         }
-        _ => vec![e],
+    }
+    match e {
+        Expr::Binary { op, lhs, rhs } if !matches!(op.as_str(), "&" | "|" | "^" | "&&" | "||") => {
+            vec![lhs.as_ref(), rhs.as_ref()]
+        }
+        _ => logic(e),
     }
 }

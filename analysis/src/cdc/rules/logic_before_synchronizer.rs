@@ -11,7 +11,7 @@ pub const ID: &str = "logic-before-synchronizer";
 
 pub fn check(ctx: &Ctx, cx: &Crossings, out: &mut Vec<Finding>) {
     for d in &cx.dests {
-        if d.qualified || in_trusted(ctx, d.reg) {
+        if d.qualified || d.scheme.is_some() || in_trusted(ctx, d.reg) {
             continue;
         }
         let Some((
@@ -29,13 +29,22 @@ pub fn check(ctx: &Ctx, cx: &Crossings, out: &mut Vec<Finding>) {
             continue;
         };
         let src_dom = ctx.leaf_domain(foreign[0]).unwrap_or_default();
+        // logic that merges several source domains names them all
+        let mut doms: Vec<String> = foreign.iter().filter_map(|s| ctx.leaf_domain(*s)).collect();
+        doms.sort();
+        doms.dedup();
+        let from = if doms.len() > 1 {
+            format!("domains {}", doms.join(", "))
+        } else {
+            format!("domain {src_dom}")
+        };
         let names: Vec<String> = foreign.iter().map(|s| short(ctx, *s)).collect();
         let mut f = Finding::new(
             ID,
             Severity::Error,
             d.read_span.clone(),
             format!(
-                "stage 1 `{}` (domain {}) of a {len}-stage chain samples logic of {foreign_bits} bits from domain {src_dom} (`{}`); synchronize one register bit, then combine",
+                "stage 1 `{}` (domain {}) of a {len}-stage chain samples logic of {foreign_bits} bits from {from} (`{}`); synchronize one register bit, then combine",
                 short(ctx, d.reg),
                 d.domain,
                 names.join("`, `"),

@@ -44,6 +44,9 @@ pub struct Finding {
     pub waived: bool,
     pub waiver_reason: Option<String>,
     pub related: Vec<Related>,
+    /// What a quick fix needs (set by `fix::plan`); `None` when the rule has no RTL fix.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub fix: Option<crate::fix::FixHint>,
 }
 
 impl Finding {
@@ -59,6 +62,7 @@ impl Finding {
             waived: false,
             waiver_reason: None,
             related: vec![],
+            fix: None,
         }
     }
 }

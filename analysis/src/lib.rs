@@ -8,6 +8,7 @@ pub mod config;
 pub mod design;
 pub mod filelist;
 pub mod finding;
+pub mod fix;
 pub mod model;
 pub mod mtbf;
 pub mod parse;

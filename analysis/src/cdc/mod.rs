@@ -69,6 +69,7 @@ pub fn run(ctx: &Ctx) -> CdcResult {
             *e = st.clone();
         }
     }
+    crate::fix::plan::annotate(ctx, &cx, &mut findings);
     // the same module instantiated several times reports each place once
     let mut seen = std::collections::HashSet::new();
     findings.retain(|f| {

@@ -54,10 +54,22 @@ pub struct CheckArgs {
     /// Parallel parse workers (default: number of cores).
     #[arg(long)]
     pub jobs: Option<usize>,
+    /// Apply quick fixes for these rules (`waive:RULE` or `waive:all` inserts waivers): prints a
+    /// unified diff, then writes each file atomically. The report is of the fixed design.
+    #[arg(long, value_name = "RULE[,RULE]", value_delimiter = ',')]
+    pub fix: Vec<String>,
 }
 
 pub fn run(a: CheckArgs) -> ExitCode {
     let t0 = Instant::now();
+    let fix_req = if a.fix.is_empty() {
+        None
+    } else {
+        match super::fix::parse_request(&a.fix) {
+            Ok(r) => Some(r),
+            Err(e) => return super::usage_error(e),
+        }
+    };
     let proj = match project::load(&a.paths, a.config.as_deref()) {
         Ok(p) => p,
         Err(e) => return super::usage_error(e.0),
@@ -81,7 +93,7 @@ pub fn run(a: CheckArgs) -> ExitCode {
                 );
                 b
             });
-    let models = worker::parse_all_with_progress(
+    let mut models = worker::parse_all_with_progress(
         &proj.jobs,
         proj.macros.clone(),
         &proj.options,
@@ -112,6 +124,23 @@ pub fn run(a: CheckArgs) -> ExitCode {
         seam_analysis::analyze(&models, &proj.config)
     };
     let t_design = t_d0.elapsed();
+    if let (Some(req), false) = (&fix_req, a.parse_only) {
+        // diffs on stdout for people, on stderr when stdout carries JSON or SARIF
+        let mut human_out = std::io::stdout();
+        let mut err_out = std::io::stderr();
+        let diff_out: &mut dyn std::io::Write = match a.format {
+            Format::Human => &mut human_out,
+            _ => &mut err_out,
+        };
+        let timeout = Duration::from_secs(a.parse_timeout);
+        match super::fix::run(req, &proj, models, analysis, timeout, jobs, diff_out) {
+            Ok(o) => {
+                models = o.models;
+                analysis = o.analysis;
+            }
+            Err(e) => return super::usage_error(e),
+        }
+    }
     analysis.findings.sort_by(|x, y| {
         (&x.span.file, x.span.line, x.span.column).cmp(&(&y.span.file, y.span.line, y.span.column))
     });

@@ -3,6 +3,7 @@
 pub mod check;
 pub mod domains;
 pub mod explain;
+pub mod fix;
 pub mod model;
 
 /// Print a one-line error and return exit code 2.

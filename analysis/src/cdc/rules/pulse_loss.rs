@@ -13,7 +13,7 @@ pub const ID: &str = "pulse-loss";
 
 /// A one-bit register that is set under a condition and cleared otherwise (a strobe), or
 /// loaded from an edge detect `a & ~b`.
-fn is_pulse(ctx: &Ctx, s: SigId) -> bool {
+pub(crate) fn is_pulse(ctx: &Ctx, s: SigId) -> bool {
     if ctx.n.sigs[s].width.unwrap_or(1) != 1 {
         return false;
     }

@@ -1,0 +1,302 @@
+//! The design half of the quick fixes: while the rules run (the elaborated design is at hand),
+//! decide for each finding whether an RTL fix is correct there, and record what the text half
+//! needs in `Finding::fix` — or why no fix is offered.
+
+use std::collections::HashSet;
+
+use super::synchronizer::SyncHint;
+use super::FixHint;
+use crate::cdc::crossings::{Bit, Crossings, DIn, Dest};
+use crate::cdc::rules::{pulse_loss, unsynchronized_crossing};
+use crate::cdc::short;
+use crate::design::graph::{const_of, targets, BitSrc};
+use crate::design::netlist::SigId;
+use crate::design::Ctx;
+use crate::finding::Finding;
+use crate::model::{Expr, Select};
+
+pub fn annotate(ctx: &Ctx, cx: &Crossings, findings: &mut [Finding]) {
+    let flagged: HashSet<(String, usize)> = findings
+        .iter()
+        .filter(|f| f.rule == unsynchronized_crossing::ID)
+        .map(|f| (f.span.file.clone(), f.span.start))
+        .collect();
+    for f in findings.iter_mut() {
+        if f.fix.is_some() {
+            continue;
+        }
+        if f.rule == unsynchronized_crossing::ID {
+            f.fix = Some(match sync_hint(ctx, cx, f, &flagged) {
+                Ok(h) => FixHint::Synchronizer(h),
+                Err(reason) => FixHint::Unavailable { reason },
+            });
+        }
+    }
+}
+
+fn is_flagged(d: &Dest, flagged: &HashSet<(String, usize)>) -> bool {
+    flagged.contains(&(d.read_span.file.clone(), d.read_span.start))
+}
+
+fn freq(ctx: &Ctx, s: SigId) -> Option<f64> {
+    let root = ctx.reg_clock.get(&s)?.root.as_ref()?;
+    ctx.config.clocks.get(root)?.frequency_hz
+}
+
+/// One-bit reads in `e` of the leaf signal (through plain copies): a one-bit name or a
+/// constant bit select of a name, as (local name, bit index as written, several bits, leaf
+/// bit). A read of several of its bits at once (or of logic of it) has `several` set.
+type Read = (String, Option<i64>, bool, u32);
+
+fn reads_of_leaf(ctx: &Ctx, e: &Expr, leaf: SigId, out: &mut Vec<Read>) {
+    let hit = |x: &Expr| -> Option<u32> {
+        match ctx.g.bit_of(x, 0) {
+            BitSrc::Copy(s, b) => {
+                let (ls, lb, _) = ctx.g.through_copies(s, b);
+                (ls == leaf).then_some(lb)
+            }
+            _ => None,
+        }
+    };
+    match e {
+        Expr::Ident { .. } => {
+            let Some(s) = ctx.g.sig(e) else { return };
+            if let Some(lb) = hit(e) {
+                let wide = ctx.n.sigs[s].width.unwrap_or(1) != 1;
+                out.push((ctx.n.sigs[s].local.clone(), None, wide, lb));
+            } else if ctx.leaves(s).contains(&leaf) {
+                out.push((ctx.n.sigs[s].local.clone(), None, true, 0)); // through logic
+            }
+        }
+        Expr::Select { base, sel } => {
+            if let (Expr::Ident { .. }, Select::Bit { index }) = (base.as_ref(), sel.as_ref()) {
+                if let (Some(i), Some(s)) = (const_of(index), ctx.g.sig(base)) {
+                    if let Some(lb) = hit(e) {
+                        out.push((ctx.n.sigs[s].local.clone(), Some(i), false, lb));
+                        reads_of_leaf(ctx, index, leaf, out);
+                        return;
+                    }
+                }
+            }
+            reads_of_leaf(ctx, base, leaf, out);
+            match sel.as_ref() {
+                Select::Bit { index } => reads_of_leaf(ctx, index, leaf, out),
+                Select::Part { msb, lsb } => {
+                    reads_of_leaf(ctx, msb, leaf, out);
+                    reads_of_leaf(ctx, lsb, leaf, out)
+                }
+                Select::Up { base, width } | Select::Down { base, width } => {
+                    reads_of_leaf(ctx, base, leaf, out);
+                    reads_of_leaf(ctx, width, leaf, out)
+                }
+            }
+        }
+        Expr::Unary { arg, .. } => reads_of_leaf(ctx, arg, leaf, out),
+        Expr::Binary { lhs, rhs, .. } => {
+            reads_of_leaf(ctx, lhs, leaf, out);
+            reads_of_leaf(ctx, rhs, leaf, out)
+        }
+        Expr::Ternary { cond, then, other } => {
+            for x in [cond, then, other] {
+                reads_of_leaf(ctx, x, leaf, out)
+            }
+        }
+        Expr::Concat { parts } | Expr::Repl { parts, .. } => {
+            parts.iter().for_each(|p| reads_of_leaf(ctx, p, leaf, out))
+        }
+        Expr::Call { args, .. } => args.iter().for_each(|p| reads_of_leaf(ctx, p, leaf, out)),
+        Expr::Opaque { reads, .. } => reads.iter().for_each(|p| reads_of_leaf(ctx, p, leaf, out)),
+        Expr::Const { .. } => {}
+    }
+}
+
+/// The one source register or input of a crossing, when every crossing bit of the
+/// destination is a single bit of it (a one-bit copy, or a one-bit enable of a wide register).
+fn single_leaf(d: &Dest) -> Option<SigId> {
+    let mut leaf = None;
+    for (_, din, _) in &d.bits {
+        match din {
+            DIn::Single { leaf: (l, _), .. } if leaf.is_none() || leaf == Some(*l) => {
+                leaf = Some(*l)
+            }
+            _ => return None,
+        }
+    }
+    leaf
+}
+
+fn assigns_of<'c>(
+    ctx: &'c Ctx,
+    r: SigId,
+) -> impl Iterator<Item = &'c crate::design::netlist::FAssign> + 'c {
+    let pi = ctx.g.reg_proc[&r];
+    ctx.n.procs[pi]
+        .assigns
+        .iter()
+        .filter(move |a| !a.in_reset && targets(&a.target).iter().any(|t| ctx.g.sig(t) == Some(r)))
+}
+
+/// The constant a register bit takes in its reset branch.
+fn reset_value(ctx: &Ctx, (s, b): Bit) -> Option<bool> {
+    let pi = *ctx.g.reg_proc.get(&s)?;
+    let mut v = None;
+    for a in ctx.n.procs[pi].assigns.iter().filter(|a| a.in_reset) {
+        if let Some(off) = ctx.g.target_bit_offset(&a.target, s, b) {
+            match ctx.g.bit_of(&a.rhs, off) {
+                BitSrc::Const(c) if v.is_none() || v == Some(c) => v = Some(c),
+                _ => return None,
+            }
+        }
+    }
+    v
+}
+
+fn sync_hint(
+    ctx: &Ctx,
+    cx: &Crossings,
+    f: &Finding,
+    flagged: &HashSet<(String, usize)>,
+) -> Result<SyncHint, String> {
+    let dest_name = f
+        .related
+        .iter()
+        .find_map(|r| r.message.strip_prefix("destination register: "))
+        .ok_or("a clock-gate enable crossing: synchronize the enable by hand")?;
+    let d = cx
+        .dests
+        .iter()
+        .find(|d| d.read_span == f.span && short(ctx, d.reg) == dest_name)
+        .ok_or("the crossing was not found again")?;
+    if ctx.n.sigs[d.reg].memory {
+        return Err("the destination is a memory write port: no synchronizer is inserted".into());
+    }
+    let leaf = match single_leaf(d) {
+        Some(l) => l,
+        None if d.bits.iter().any(|(_, din, _)| matches!(din, DIn::Logic { .. })) => {
+            return Err("logic of several source bits crosses: synchronize a register bit".into())
+        }
+        None => {
+            return Err(
+                "several source bits cross: separate synchronizers would let them arrive in different cycles (a multi-bit scheme is needed)"
+                    .into(),
+            )
+        }
+    };
+    let pi = ctx.g.reg_proc[&d.reg];
+    let proc = &ctx.n.procs[pi];
+    let inst = ctx.n.sigs[d.reg].inst;
+    let (fi, mi) = ctx.n.insts[inst]
+        .def
+        .ok_or("the destination has no module definition")?;
+    if proc.file != fi {
+        return Err("the destination process comes from another file (an include?)".into());
+    }
+    let mut reads = Vec::new();
+    for a in assigns_of(ctx, d.reg) {
+        reads_of_leaf(ctx, &a.rhs, leaf, &mut reads);
+        for g in &a.guards {
+            reads_of_leaf(ctx, &g.cond, leaf, &mut reads);
+        }
+    }
+    reads.sort();
+    reads.dedup();
+    if reads.iter().any(|r| r.2) {
+        return Err(format!(
+            "several bits of `{}` (or logic of it) are read: not a single-bit crossing",
+            short(ctx, leaf)
+        ));
+    }
+    let (base, bit, leaf_bit) = match reads.as_slice() {
+        [one] => (one.0.clone(), one.1, one.3),
+        [] => {
+            return Err(format!(
+                "`{}` reaches `{dest_name}` through logic: synchronize it at its source",
+                short(ctx, leaf)
+            ))
+        }
+        _ => {
+            return Err(
+                "several bits or names of the source are read: not one single-bit crossing".into(),
+            )
+        }
+    };
+    if !base
+        .chars()
+        .all(|c| c.is_ascii_alphanumeric() || c == '_' || c == '$')
+    {
+        return Err(format!("`{base}` is not a plain name of the module"));
+    }
+    // one-cycle pulses need a pulse synchronizer when they may be faster than the reader
+    if ctx.g.is_reg(leaf) && pulse_loss::is_pulse(ctx, leaf) {
+        match (freq(ctx, leaf), freq(ctx, d.reg)) {
+            (Some(fs), Some(fd)) if fs <= fd => {}
+            (Some(_), Some(_)) => {
+                return Err(format!(
+                    "`{}` is a one-cycle pulse from a faster domain: a level synchronizer can miss it (use a toggle synchronizer or a handshake)",
+                    short(ctx, leaf)
+                ))
+            }
+            _ => {
+                return Err(format!(
+                    "`{}` is a one-cycle pulse and the clock frequencies are not given: a level synchronizer may miss it",
+                    short(ctx, leaf)
+                ))
+            }
+        }
+    }
+    // every instance of the module must cross, or the synchronizer belongs in the parent
+    let local = &ctx.n.sigs[d.reg].local;
+    for (ii, other) in ctx.n.insts.iter().enumerate() {
+        if other.def != Some((fi, mi)) || ii == inst {
+            continue;
+        }
+        let reg = ctx
+            .n
+            .by_name
+            .get(&format!("{}.{local}", other.path))
+            .copied();
+        let crosses = reg.is_some_and(|r| {
+            cx.dests
+                .iter()
+                .any(|d2| d2.reg == r && is_flagged(d2, flagged) && single_leaf(d2).is_some())
+        });
+        if !crosses {
+            return Err(format!(
+                "instance `{}` of `{}` does not cross here: the synchronizer belongs at the port connection in the parent (not offered automatically)",
+                other.path, other.module
+            ));
+        }
+    }
+    // every flagged reader of the same bit on the same clock and edge in this instance
+    let me = &ctx.reg_clock[&d.reg];
+    let mut procs: Vec<usize> = vec![proc.span.start];
+    for d2 in &cx.dests {
+        if ctx.n.sigs[d2.reg].inst != inst || !is_flagged(d2, flagged) {
+            continue;
+        }
+        let rc = &ctx.reg_clock[&d2.reg];
+        if rc.root != me.root || rc.edge != me.edge {
+            continue;
+        }
+        if single_leaf(d2) == Some(leaf) {
+            let p2 = &ctx.n.procs[ctx.g.reg_proc[&d2.reg]];
+            if p2.file == fi && !procs.contains(&p2.span.start) {
+                procs.push(p2.span.start);
+            }
+        }
+    }
+    Ok(SyncHint {
+        file: ctx.files[fi].path.clone(),
+        module: ctx.files[fi].modules[mi].name.clone(),
+        base,
+        bit,
+        dest_proc: proc.span.start,
+        procs,
+        reset_value: if ctx.g.is_reg(leaf) {
+            reset_value(ctx, (leaf, leaf_bit))
+        } else {
+            None
+        },
+        stages: ctx.config.synchronizers.min_stages.max(2),
+    })
+}

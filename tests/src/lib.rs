@@ -2,6 +2,7 @@
 //! running outside tools (iverilog, Verilator) and parsing fixtures in-process.
 
 pub mod lsp_client;
+pub mod real;
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output};
 

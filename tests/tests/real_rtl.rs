@@ -5,83 +5,9 @@
 //! first), with their rtl folders as include dirs, must read at least 97% of files.
 
 use std::path::{Path, PathBuf};
-use std::process::Command;
 
+use seam_tests::real::*;
 use seam_tests::*;
-
-pub fn real_root() -> PathBuf {
-    let root = repo_root().join("tests/.cache/real");
-    if !root.join("pythondata_misc_opentitan").is_dir()
-        || !root.join("pythondata_cpu_ibex").is_dir()
-    {
-        let st = Command::new(repo_root().join("tests/fetch-real-rtl"))
-            .status()
-            .expect("fetch-real-rtl");
-        assert!(
-            st.success(),
-            "could not fetch the real RTL packages from PyPI"
-        );
-    }
-    root
-}
-
-fn skip_dir(p: &Path) -> bool {
-    p.components().any(|c| {
-        let s = c.as_os_str().to_string_lossy();
-        matches!(
-            s.as_ref(),
-            "dv" | "pre_dv" | "tb" | "test" | "fpv" | "sim" | "lint" | "formal" | "examples"
-        )
-    })
-}
-
-/// Source files under folders named `rtl`, and the include dirs a user would set: those
-/// folders plus every folder that holds a header (.svh/.vh).
-fn rtl_files(base: &Path) -> (Vec<PathBuf>, Vec<PathBuf>) {
-    let mut files = Vec::new();
-    let mut dirs = Vec::new();
-    for e in walkdir::WalkDir::new(base)
-        .into_iter()
-        .filter_map(|e| e.ok())
-    {
-        let p = e.path();
-        if e.file_type().is_file()
-            && matches!(
-                p.extension().and_then(|x| x.to_str()),
-                Some("svh") | Some("vh")
-            )
-        {
-            if let Some(d) = p.parent() {
-                dirs.push(d.to_path_buf());
-            }
-        }
-        if skip_dir(p.strip_prefix(base).unwrap_or(p)) {
-            continue;
-        }
-        if e.file_type().is_dir() && p.file_name().is_some_and(|n| n == "rtl") {
-            dirs.push(p.to_path_buf());
-        }
-        if e.file_type().is_file()
-            && p.components().any(|c| c.as_os_str() == "rtl")
-            && matches!(
-                p.extension().and_then(|x| x.to_str()),
-                Some("sv") | Some("v")
-            )
-        {
-            files.push(p.to_path_buf());
-        }
-    }
-    files.sort();
-    dirs.sort();
-    dirs.dedup();
-    (files, dirs)
-}
-
-fn defines_package(p: &Path) -> bool {
-    std::fs::read_to_string(p)
-        .map(|t| t.lines().any(|l| l.trim_start().starts_with("package ")))
-        .unwrap_or(false)
-}
 
 /// Runs `seam check --format json` over a generated filelist; returns (files, files with errors).
 fn parse_rate(name: &str, base: &Path) -> (usize, usize, Vec<String>) {

@@ -39,6 +39,8 @@ pub struct Dest {
     /// The assignment that samples the foreign signal.
     pub read_span: Span,
     pub qualified: bool,
+    /// A safe multi-bit scheme that covers this read (the storage of an asynchronous FIFO).
+    pub scheme: Option<String>,
 }
 
 #[derive(Clone, Debug)]
@@ -53,6 +55,8 @@ pub struct Crossings {
     pub followers: HashMap<Bit, Vec<Follower>>,
     /// Synchronizer stage of a register bit: (k, N, source domain).
     pub stage_bits: HashMap<Bit, (u32, u32, String)>,
+    /// Gray code, asynchronous FIFOs and what each stage carries (`cdc::schemes`).
+    pub schemes: crate::cdc::schemes::Schemes,
 }
 
 fn width(ctx: &Ctx, s: SigId) -> u32 {
@@ -78,8 +82,11 @@ fn assigns_for<'c>(
 fn copy_source(ctx: &Ctx, r: SigId, b: u32) -> Option<(Bit, Vec<SigId>)> {
     let mut src: Option<(Bit, Vec<SigId>)> = None;
     for (a, off) in assigns_for(ctx, r, b) {
-        let BitSrc::Copy(s, k) = ctx.g.bit_of(&a.rhs, off) else {
-            return None;
+        let (s, k) = match ctx.g.bit_of(&a.rhs, off) {
+            BitSrc::Copy(s, k) => (s, k),
+            // a synchronous reset or clear of a stage loads a constant: still a stage
+            BitSrc::Const(_) => continue,
+            BitSrc::Logic => return None,
         };
         let (ls, lb, hops) = ctx.g.through_copies(s, k);
         if (ls, lb) == (r, b) {
@@ -114,6 +121,7 @@ impl Crossings {
             dests: vec![],
             followers,
             stage_bits: HashMap::new(),
+            schemes: crate::cdc::schemes::Schemes::default(),
         };
         // destinations
         for &r in &regs {
@@ -176,6 +184,7 @@ impl Crossings {
                 bits,
                 read_span: read_span.unwrap_or_default(),
                 qualified: false,
+                scheme: None,
             });
         }
         // chain lengths and stages
@@ -195,6 +204,21 @@ impl Crossings {
         for i in 0..cx.dests.len() {
             let q = cx.is_qualified(ctx, &cx.dests[i]);
             cx.dests[i].qualified = q;
+        }
+        // safe multi-bit schemes; a read of an asynchronous FIFO's storage is covered by it
+        cx.schemes = crate::cdc::schemes::Schemes::compute(ctx, &cx);
+        for d in cx.dests.iter_mut() {
+            let srcs: Vec<SigId> = d.sources.values().flatten().copied().collect();
+            let fifo = !srcs.is_empty()
+                && srcs.iter().all(|m| {
+                    cx.schemes
+                        .fifo
+                        .get(m)
+                        .is_some_and(|f| f.read_domain == d.domain)
+                });
+            if fifo {
+                d.scheme = Some("asynchronous FIFO".into());
+            }
         }
         cx
     }

@@ -1,9 +1,11 @@
 //! CDC rules over an elaborated design. `crossings` recognises synchronizers and classifies
 //! every crossing once; each rule in `rules/` turns that into findings of one kind.
 
+pub mod bitval;
 pub mod crossings;
 pub mod resets;
 pub mod rules;
+pub mod schemes;
 pub mod waivers;
 
 use std::collections::HashMap;
@@ -49,6 +51,8 @@ pub fn run(ctx: &Ctx) -> CdcResult {
     let mut findings = Vec::new();
     let mut crossings = Vec::new();
     rules::unsynchronized_crossing::check(ctx, &cx, &mut findings, &mut crossings);
+    rules::multibit_crossing::check(ctx, &cx, &mut findings, &mut crossings);
+    rules::reconvergence::check(ctx, &cx, &mut findings);
     rules::logic_before_synchronizer::check(ctx, &cx, &mut findings);
     rules::synchronizer_stage_fanout::check(ctx, &cx, &mut findings);
     rules::derived_clock::check(ctx, &mut findings);

@@ -49,6 +49,11 @@ pub fn check(ctx: &Ctx, cx: &Crossings, out: &mut Vec<Finding>, crossings: &mut 
             crossings.push(c);
             continue;
         }
+        if let Some(s) = &d.scheme {
+            c.scheme = Some(s.clone());
+            crossings.push(c);
+            continue;
+        }
         if d.qualified {
             c.scheme = Some("qualified by a synchronized enable".into());
             crossings.push(c);

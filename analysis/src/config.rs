@@ -275,6 +275,14 @@ pub enum Cell {
         output: String,
         reset: Option<String>,
     },
+    /// A trusted reset synchronizer: `stages` flops on `clock`, reset by `reset` (active
+    /// low), shifting in 1; `output` is the synchronized reset (active low).
+    ResetSynchronizer {
+        clock: String,
+        reset: String,
+        output: String,
+        stages: u32,
+    },
 }
 
 impl Cell {
@@ -285,6 +293,7 @@ impl Cell {
         "clock-source",
         "synchronizer",
         "flop",
+        "reset-synchronizer",
     ];
 
     /// The `kind` as written in `seam.toml`.
@@ -296,6 +305,7 @@ impl Cell {
             Cell::ClockSource { .. } => "clock-source",
             Cell::Synchronizer { .. } => "synchronizer",
             Cell::Flop { .. } => "flop",
+            Cell::ResetSynchronizer { .. } => "reset-synchronizer",
         }
     }
 
@@ -306,7 +316,8 @@ impl Cell {
             | Cell::ClockGate { output, .. }
             | Cell::ClockMux { output, .. }
             | Cell::Synchronizer { output, .. }
-            | Cell::Flop { output, .. } => vec![output.as_str()],
+            | Cell::Flop { output, .. }
+            | Cell::ResetSynchronizer { output, .. } => vec![output.as_str()],
             Cell::ClockSource { outputs } => outputs.iter().map(String::as_str).collect(),
         }
     }
@@ -531,6 +542,12 @@ pub fn parse_frequency(text: &str) -> Result<f64, String> {
         return Err(shape_error());
     }
     let value: f64 = number.replace('_', "").parse().map_err(|_| shape_error())?;
+    // units are case-insensitive, except the one spelling that means millihertz in SI
+    if unit == "mHz" {
+        return Err(format!(
+            "bad frequency \"{text}\" (\"mHz\" would be millihertz; write \"MHz\" for megahertz)"
+        ));
+    }
     let lower = unit.to_lowercase();
     let hz = match lower.as_str() {
         "hz" => value,
@@ -572,7 +589,7 @@ pub fn parse_frequency(text: &str) -> Result<f64, String> {
 /// Formats hertz for people: `61.44 MHz`, `1 kHz`, `2.5 GHz`.
 pub fn format_frequency(hz: f64) -> String {
     if !hz.is_finite() {
-        return format!("{hz} Hz");
+        return "unknown".to_string(); // never print inf or NaN
     }
     let (scale, unit) = if hz >= 1e9 {
         (1e9, "GHz")
@@ -1614,6 +1631,7 @@ fn read_cell(ctx: &mut Ctx<'_>, entry: &Entry<'_>) -> Option<Cell> {
         "clock-source" => &["outputs"],
         "synchronizer" => &["clock", "input", "output", "stages"],
         "flop" => &["clock", "input", "output"],
+        "reset-synchronizer" => &["clock", "reset", "output", "stages"],
         _ => {
             ctx.error(
                 kind_entry.value_at,
@@ -1699,6 +1717,14 @@ fn read_cell(ctx: &mut Ctx<'_>, entry: &Entry<'_>) -> Option<Cell> {
         return None;
     }
     let reset = strings.remove("reset");
+    if kind == "reset-synchronizer" {
+        return Some(Cell::ResetSynchronizer {
+            clock: strings.remove("clock").unwrap_or_default(),
+            reset: reset.unwrap_or_default(),
+            output: strings.remove("output").unwrap_or_default(),
+            stages,
+        });
+    }
     let mut take = |name: &str| strings.remove(name).unwrap_or_default();
     Some(match kind.as_str() {
         "clock-buffer" => Cell::ClockBuffer {

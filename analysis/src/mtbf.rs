@@ -217,6 +217,23 @@ impl MtbfParams {
     }
 }
 
+impl From<&crate::config::MtbfConfig> for MtbfParams {
+    /// The `[mtbf]` table of seam.toml as model parameters.
+    fn from(m: &crate::config::MtbfConfig) -> Self {
+        MtbfParams {
+            tau_ps: m.tau_ps,
+            window_ps: m.window_ps,
+            setup_ps: m.setup_ps,
+            clock_to_q_ps: m.clock_to_q_ps,
+            routing_ps: m.routing_ps,
+            data_rate: m.data_rate,
+            async_toggle_hz: m.async_toggle_hz,
+            target_years: m.target_years,
+            units: m.units as f64,
+        }
+    }
+}
+
 impl SyncInput {
     /// Check the chain's inputs.
     pub fn validate(&self) -> Result<(), MtbfError> {
@@ -526,9 +543,21 @@ fn format_si(value: f64, unit: &str) -> String {
     format!("{text} {prefix}{unit}")
 }
 
-/// A frequency for display: `"100 MHz"`, `"61.44 MHz"`.
+/// A frequency for display: `"100 MHz"`, `"61.44 MHz"` (one formatter for the whole crate:
+/// [`crate::config::format_frequency`]).
 pub fn format_frequency(hz: f64) -> String {
-    format_si(hz, "Hz")
+    crate::config::format_frequency(hz)
+}
+
+/// A computed frequency (a solver's answer) for display, rounded down to 4 significant
+/// digits so that the printed value still meets the target: `"976.3 MHz"`.
+pub fn format_frequency_limit(hz: f64) -> String {
+    if !(hz.is_finite() && hz > 0.0) {
+        return format_frequency(hz);
+    }
+    let scale = 10f64.powi(3 - hz.log10().floor() as i32);
+    let rounded = (hz * scale).floor() / scale;
+    format_frequency(if rounded > 0.0 { rounded } else { hz })
 }
 
 /// A time for display: `"8 ns"`, `"9.85 ns"`.
@@ -586,94 +615,10 @@ pub fn describe(params: &MtbfParams, input: &SyncInput) -> String {
     format!("{text} ({}). {CAUTION}{placeholder}", inputs.join(", "))
 }
 
-/// Parse a frequency or a period: `"100 MHz"`, `"61.44MHz"`, `"1 kHz"`, `"10 Hz"`, `"2 GHz"`,
-/// or `"8 ns"`, `"10ps"`, `"1 us"`, `"1 ms"`, `"1 s"` (a period gives 1/period). Returns Hz.
-///
-/// Unit prefixes are case-sensitive where case changes the meaning (`MHz` is mega, `mHz`
-/// would be milli and is refused with a hint); `Hz` itself may be written `hz` or `HZ`.
+/// Parse a frequency or a period into Hz. There is one parser for the whole crate, the one
+/// seam.toml uses: [`crate::config::parse_frequency`].
 pub fn parse_frequency(s: &str) -> Result<f64, String> {
-    let text = s.trim();
-    if text.is_empty() {
-        return Err("empty frequency: write e.g. \"100 MHz\" or a period such as \"8 ns\"".into());
-    }
-    let bytes = text.as_bytes();
-    let mut end = 0;
-    while end < bytes.len() && (bytes[end].is_ascii_digit() || bytes[end] == b'.') {
-        end += 1;
-    }
-    // Optional exponent: e/E, optional sign, at least one digit.
-    if end > 0 && end < bytes.len() && (bytes[end] == b'e' || bytes[end] == b'E') {
-        let mut k = end + 1;
-        if k < bytes.len() && (bytes[k] == b'+' || bytes[k] == b'-') {
-            k += 1;
-        }
-        if k < bytes.len() && bytes[k].is_ascii_digit() {
-            while k < bytes.len() && bytes[k].is_ascii_digit() {
-                k += 1;
-            }
-            end = k;
-        }
-    }
-    let (number_text, unit_text) = text.split_at(end);
-    let unit = unit_text.trim();
-    if number_text.is_empty() {
-        if text.starts_with('-') {
-            return Err(format!("frequency \"{text}\" must be positive"));
-        }
-        return Err(format!(
-            "frequency \"{text}\" does not start with a number: write e.g. \"100 MHz\" or \"8 ns\""
-        ));
-    }
-    let value: f64 = number_text
-        .parse()
-        .map_err(|_| format!("frequency \"{text}\": \"{number_text}\" is not a number"))?;
-    if unit.is_empty() {
-        return Err(format!(
-            "frequency \"{text}\" has no unit: write e.g. \"{number_text} MHz\" or \"{number_text} ns\""
-        ));
-    }
-    enum Kind {
-        Frequency(f64),
-        Period(f64),
-    }
-    let kind = match unit {
-        "Hz" | "hz" | "HZ" => Kind::Frequency(1.0),
-        "kHz" | "KHz" | "khz" | "KHZ" => Kind::Frequency(1e3),
-        "MHz" | "Mhz" | "MHZ" => Kind::Frequency(1e6),
-        "GHz" | "Ghz" | "GHZ" | "ghz" => Kind::Frequency(1e9),
-        "THz" | "Thz" | "THZ" => Kind::Frequency(1e12),
-        "s" => Kind::Period(1.0),
-        "ms" => Kind::Period(1e-3),
-        "us" | "µs" | "μs" => Kind::Period(1e-6),
-        "ns" => Kind::Period(1e-9),
-        "ps" => Kind::Period(1e-12),
-        "fs" => Kind::Period(1e-15),
-        "mHz" | "mhz" => {
-            return Err(format!(
-                "frequency \"{text}\": \"{unit}\" would be millihertz; write \"MHz\" for megahertz"
-            ))
-        }
-        _ => {
-            return Err(format!(
-                "frequency \"{text}\": unknown unit \"{unit}\" (use Hz, kHz, MHz, GHz, or a period in s, ms, us, ns, ps)"
-            ))
-        }
-    };
-    if !value.is_finite() {
-        return Err(format!("frequency \"{text}\" is out of range"));
-    }
-    if value <= 0.0 {
-        return Err(format!("frequency \"{text}\" must be greater than zero"));
-    }
-    let hz = match kind {
-        Kind::Frequency(scale) => value * scale,
-        Kind::Period(scale) => 1.0 / (value * scale),
-    };
-    if hz.is_finite() && hz > 0.0 {
-        Ok(hz)
-    } else {
-        Err(format!("frequency \"{text}\" is out of range"))
-    }
+    crate::config::parse_frequency(s)
 }
 
 #[cfg(test)]
@@ -1063,32 +1008,32 @@ mod tests {
 
     #[test]
     fn parse_frequency_errors_are_clear() {
-        let cases: [(&str, &str); 13] = [
-            ("", "empty"),
-            ("   ", "empty"),
-            ("MHz", "does not start with a number"),
-            ("100", "no unit"),
-            ("-5 MHz", "positive"),
+        // One parser for seam.toml and the model (config::parse_frequency): every error names
+        // the text it refused.
+        let cases: [(&str, &str); 12] = [
+            ("", "bad frequency"),
+            ("   ", "bad frequency"),
+            ("MHz", "expected e.g."),
+            ("100", "expected e.g."),
+            ("-5 MHz", "greater than zero"),
             ("0 Hz", "greater than zero"),
             ("0 ns", "greater than zero"),
-            ("100 mhz", "millihertz"),
+            ("100 mHz", "millihertz"),
             ("5 furlongs", "unknown unit"),
-            ("1.2.3 MHz", "not a number"),
-            ("NaN Hz", "does not start with a number"),
-            ("inf Hz", "does not start with a number"),
-            ("1e400 Hz", "out of range"),
+            ("1.2.3 MHz", "expected e.g."),
+            ("NaN Hz", "expected e.g."),
+            ("1e400 Hz", "greater than zero"),
         ];
         for (text, needle) in cases {
             let e = parse_frequency(text).expect_err(text);
             assert!(e.contains(needle), "{text:?}: {e}");
+            assert_eq!(Err(e), crate::config::parse_frequency(text));
         }
         // Out of range after scaling: 1e-300 fs → 1e315 Hz.
-        assert!(parse_frequency("1e-300 fs")
-            .unwrap_err()
-            .contains("out of range"));
+        assert!(parse_frequency("1e-300 fs").is_err());
         // Odd bytes and multibyte text never panic.
         for text in [
-            "1 é", "é", "1\u{0}Hz", "1e", "1e+", ".", "..e5 Hz", "1 MHzz",
+            "1 é", "é", "1\u{0}Hz", "1e", "1e+", ".", "..e5 Hz", "1 MHzz", "inf Hz",
         ] {
             assert!(parse_frequency(text).is_err(), "{text:?}");
         }
@@ -1339,6 +1284,11 @@ mod tests {
         let slack = describe(&p, &input(2, 10e9, 1e6));
         assert!(slack.contains("no settling slack"), "{slack}");
         assert_eq!(format_frequency(61.44e6), "61.44 MHz");
+        // rounded down to 4 significant digits (never above the solver's limit)
+        assert_eq!(format_frequency_limit(976_303_252.0), "976.3 MHz");
+        assert_eq!(format_frequency_limit(1_572_560_000.0), "1.572 GHz");
+        assert_eq!(format_frequency_limit(99_999.0), "99.99 kHz");
+        assert_eq!(format_frequency_limit(f64::INFINITY), "unknown");
         assert_eq!(format_time(8e-9), "8 ns");
         assert_eq!(format_time(0.0), "0 s");
     }

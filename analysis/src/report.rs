@@ -17,6 +17,9 @@ pub struct Analysis {
     pub signals: Vec<SignalInfo>,
     /// Every domain crossing found, safe or not.
     pub crossings: Vec<Crossing>,
+    /// MTBF estimates of every synchronizer and of the design (`cdc::mtbf_table`).
+    #[serde(default)]
+    pub mtbf: MtbfReport,
     pub files: usize,
     pub modules: usize,
 }
@@ -167,5 +170,92 @@ pub struct Crossing {
     pub scheme: Option<String>,
     pub stages: Option<u32>,
     pub bits: u32,
+    pub span: Span,
+}
+
+/// MTBF estimates (DESIGN.md section 6), computed once per analysis by `cdc::mtbf_table` and
+/// read by `low-mtbf`, `seam mtbf`, the HTML report, hover and code lens. Figures are
+/// estimates from the published formula and the `[mtbf]` parameters, not silicon data.
+#[derive(Clone, Debug, Default, Serialize, Deserialize)]
+pub struct MtbfReport {
+    /// Every recognized synchronizer chain (one entry per first-stage register).
+    pub synchronizers: Vec<SyncMtbf>,
+    /// log10 seconds of the design MTBF across `units` devices, over the synchronizers with a
+    /// figure; `None` when none has one (or every one is unbounded).
+    pub design_log10_s: Option<f64>,
+    /// Synchronizers without a figure (unknown frequency, no settling slack): not in the total.
+    pub uncounted: usize,
+    /// Index into `synchronizers` of the one with the highest failure rate.
+    pub weakest: Option<usize>,
+    /// Top modules of the design (for the code lens on the top).
+    pub tops: Vec<String>,
+    /// The `[mtbf]` parameters used, for display beside the figures.
+    pub target_years: f64,
+    pub units: u64,
+    pub tau_ps: f64,
+    pub window_ps: f64,
+    pub setup_ps: f64,
+    pub clock_to_q_ps: f64,
+    pub routing_ps: f64,
+    /// τ and T_W are still the placeholder defaults.
+    pub placeholder: bool,
+}
+
+/// The estimate of one synchronizer (all its bits).
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(tag = "kind", rename_all = "snake_case")]
+pub enum SyncEstimate {
+    /// A figure, in log10 seconds: one bit (the weakest), all bits on one device, and all bits
+    /// across `units` devices (the figure compared with the target).
+    Figure {
+        per_bit_log10_s: f64,
+        log10_s: f64,
+        fleet_log10_s: f64,
+    },
+    /// N ≥ 2 and a stage step leaves no time to resolve (T_stage − t_setup − t_clk→q −
+    /// t_routing ≤ 0); `slack_s` is that difference.
+    NoSettlingSlack { slack_s: f64 },
+    /// The source never changes (its transition rate is 0).
+    Unbounded,
+    /// A frequency is not known: the seam.toml settings that would give one.
+    Unknown { missing: Vec<String> },
+}
+
+/// One synchronizer chain and its MTBF estimate.
+#[derive(Clone, Debug, Serialize, Deserialize)]
+pub struct SyncMtbf {
+    /// Source register or input (hierarchical name without the top).
+    pub source: String,
+    pub source_domain: String,
+    /// First stage register (hierarchical name without the top).
+    pub destination: String,
+    pub destination_domain: String,
+    /// Every stage register, full hierarchical names (`top.u_sync.q1`), stage 1 first.
+    pub stage_registers: Vec<String>,
+    /// Chain length N (the shortest over the bits).
+    pub stages: u32,
+    /// Bits W: each has its own chain and counts once in the design total.
+    pub bits: u32,
+    pub dest_clock: String,
+    pub dest_clock_hz: Option<f64>,
+    /// The source's clock, when it has one (not for asynchronous inputs).
+    pub source_clock: Option<String>,
+    /// Transitions per second of the (weakest) source bit, and where the figure comes from.
+    pub f_data_hz: Option<f64>,
+    pub f_data_from: String,
+    /// Time between consecutive stages' capturing edges (the mean over the steps).
+    pub stage_time_s: Option<f64>,
+    /// Steps where the next stage captures on the other edge (half a period).
+    pub half_period_steps: u32,
+    /// Resolution time t_r of the weakest bit.
+    pub t_r_s: Option<f64>,
+    pub estimate: SyncEstimate,
+    /// Whether the fleet figure meets `target_years`; `None` when there is no figure.
+    pub meets_target: Option<bool>,
+    /// Fewest stages that meet the target (1 to 10), same clock and edges.
+    pub min_stages: Option<u32>,
+    /// Highest destination clock frequency that meets the target with these stages.
+    pub max_dest_hz: Option<f64>,
+    /// The stage-1 assignment that samples the source.
     pub span: Span,
 }

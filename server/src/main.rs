@@ -31,6 +31,8 @@ enum Command {
     Explain(cli::explain::ExplainArgs),
     /// Print the per-file model of each FILE as JSON.
     Model(cli::model::ModelArgs),
+    /// List every synchronizer with its MTBF estimate and the design total (--solve: what meets the target).
+    Mtbf(cli::mtbf::MtbfArgs),
     /// Run the language server (LSP over stdio).
     Serve(lsp::ServeArgs),
     /// Internal: parse one file in a worker process (stdin request, stdout replies).
@@ -59,6 +61,7 @@ fn main() -> ExitCode {
         Command::Domains(a) => cli::domains::run(a),
         Command::Explain(a) => cli::explain::run(a),
         Command::Model(a) => cli::model::run(a),
+        Command::Mtbf(a) => cli::mtbf::run(a),
         Command::Serve(a) => lsp::run(a),
         Command::ParseWorker => worker::serve_one(),
     }

@@ -3,6 +3,7 @@
 
 pub mod bitval;
 pub mod crossings;
+pub mod mtbf_table;
 pub mod resets;
 pub mod rules;
 pub mod schemes;
@@ -24,6 +25,8 @@ pub struct CdcResult {
     pub resets: HashMap<SigId, crate::report::ResetSource>,
     /// Per register: (stage k, of N) of its first reset-synchronizer stage bit.
     pub reset_stages: HashMap<SigId, (u32, u32)>,
+    /// MTBF of every synchronizer and of the design (`mtbf_table`).
+    pub mtbf: crate::report::MtbfReport,
 }
 
 /// Hierarchical name without the top module: `u_log.alarm`.
@@ -46,6 +49,28 @@ pub fn in_trusted(ctx: &Ctx, s: SigId) -> bool {
     ctx.n.insts[ctx.n.sigs[s].inst].trusted
 }
 
+/// The outermost trusted synchronizer instance (module or `synchronizer` cell) that holds `s`.
+pub fn trusted_instance(ctx: &Ctx, s: SigId) -> Option<usize> {
+    let mut i = ctx.n.sigs[s].inst;
+    let cell = matches!(
+        ctx.n.insts[i].cell,
+        Some(crate::config::Cell::Synchronizer { .. })
+    );
+    if cell {
+        return Some(i);
+    }
+    if !ctx.n.insts[i].trusted {
+        return None;
+    }
+    while let Some(p) = ctx.n.insts[i].parent {
+        if !ctx.n.insts[p].trusted {
+            break;
+        }
+        i = p;
+    }
+    Some(i)
+}
+
 pub fn run(ctx: &Ctx) -> CdcResult {
     let cx = crossings::Crossings::compute(ctx);
     let mut findings = Vec::new();
@@ -59,6 +84,8 @@ pub fn run(ctx: &Ctx) -> CdcResult {
     rules::gated_clock::check(ctx, &mut findings);
     rules::clock_as_data::check(ctx, &mut findings);
     rules::pulse_loss::check(ctx, &cx, &mut findings);
+    let mtbf = mtbf_table::compute(ctx, &cx);
+    rules::low_mtbf::check(ctx, &mtbf, &mut findings);
     let rs = resets::Resets::compute(ctx, &cx);
     rules::async_reset_release::check(ctx, &rs, &mut findings);
     let reset_stages: HashMap<SigId, (u32, u32)> = rs
@@ -90,5 +117,6 @@ pub fn run(ctx: &Ctx) -> CdcResult {
         stages,
         resets: rs.sources,
         reset_stages,
+        mtbf,
     }
 }

@@ -327,6 +327,7 @@ fn analyze_here(models: &[FileModel], config: &Config) -> Analysis {
     let cdc = crate::cdc::run(&ctx);
     findings.extend(cdc.findings);
     out.crossings = cdc.crossings;
+    out.mtbf = cdc.mtbf;
 
     // registers and signals tables
     let mut regs: Vec<SigId> = ctx.g.reg_proc.keys().copied().collect();

@@ -93,6 +93,7 @@ fn register_lines(a: &Analysis, r: &RegisterInfo, figures: &mut bool) -> Vec<Str
     if let Some((k, n, from)) = &r.stage {
         out.push(format!("Synchronizer: stage {k} of {n} from `{from}`"));
     }
+    out.extend(super::mtbf_view::stage_lines(a, r, figures));
     out
 }
 

@@ -122,7 +122,8 @@ pub fn lenses(
         text: &file.text,
         edits: &file.edits,
     };
-    df.model
+    let mut out: Vec<CodeLens> = df
+        .model
         .modules
         .iter()
         .map(|m| {
@@ -138,7 +139,23 @@ pub fn lenses(
                 data: None,
             }
         })
-        .collect()
+        .collect();
+    // a second lens on each top module: the design MTBF and the weakest synchronizer
+    let tops = &design.analysis.mtbf.tops;
+    if let Some(t) = super::mtbf_view::top_lens_title(&design.analysis.mtbf) {
+        for m in df.model.modules.iter().filter(|m| tops.contains(&m.name)) {
+            out.push(CodeLens {
+                range: span_range(Some(&view), df.good_seq, &m.name_span, enc),
+                command: Some(Command {
+                    title: t.clone(),
+                    command: super::CMD_MTBF.into(),
+                    arguments: Some(vec![json!(uri.to_string())]),
+                }),
+                data: None,
+            });
+        }
+    }
+    out
 }
 
 /// `seam.moduleCrossings`: the crossings into a module, as a message and as JSON.

@@ -14,6 +14,7 @@ mod documents;
 mod hover;
 mod inlay;
 mod lens;
+mod mtbf_view;
 mod state;
 
 use std::path::PathBuf;
@@ -50,6 +51,7 @@ pub struct ServeArgs {
 
 pub const CMD_REANALYZE: &str = "seam.reanalyze";
 pub const CMD_MODULE: &str = "seam.moduleCrossings";
+pub const CMD_MTBF: &str = "seam.mtbf";
 
 /// Test mode only: every analysis cycle is done (see `Outgoing::Analyzed`).
 enum Analyzed {}
@@ -190,7 +192,7 @@ impl LanguageServer for Backend {
                     resolve_provider: Some(false),
                 }),
                 execute_command_provider: Some(ExecuteCommandOptions {
-                    commands: vec![CMD_REANALYZE.into(), CMD_MODULE.into()],
+                    commands: vec![CMD_REANALYZE.into(), CMD_MODULE.into(), CMD_MTBF.into()],
                     ..ExecuteCommandOptions::default()
                 }),
                 workspace: Some(WorkspaceServerCapabilities {
@@ -395,6 +397,15 @@ impl LanguageServer for Backend {
                 let (text, list) = lens::module_crossings(&design, &module);
                 self.client.show_message(MessageType::INFO, text).await;
                 Ok(Some(list))
+            }
+            CMD_MTBF => {
+                let Some(sh) = self.shared() else {
+                    return Ok(None);
+                };
+                let design = sh.design();
+                let text = crate::cli::mtbf::human(&design.analysis.mtbf, true);
+                self.client.show_message(MessageType::INFO, text).await;
+                Ok(Some(crate::cli::mtbf::report_json(&design.analysis.mtbf, true)))
             }
             other => Err(RpcError::invalid_params(format!("unknown command {other}"))),
         }

@@ -5,6 +5,7 @@ pub mod clock_as_data;
 pub mod derived_clock;
 pub mod gated_clock;
 pub mod logic_before_synchronizer;
+pub mod low_mtbf;
 pub mod multibit_crossing;
 pub mod pulse_loss;
 pub mod reconvergence;

@@ -84,10 +84,28 @@ pub fn check(ctx: &Ctx, cx: &Crossings, out: &mut Vec<Finding>, crossings: &mut 
         } else {
             "register"
         };
-        let reason = match shortest {
+        let mut reason = match shortest {
             Some(n) if n > 1 => format!("a chain of {n} stage(s), fewer than `min_stages` = {min}"),
             _ => "no synchronizer".to_string(),
         };
+        // a trusted synchronizer on the wrong clock: its output is still in the source domain
+        if let Some(ti) = d
+            .sources
+            .values()
+            .flatten()
+            .find_map(|s| crate::cdc::trusted_instance(ctx, *s))
+        {
+            let inst = &ctx.n.insts[ti];
+            let path = inst
+                .path
+                .split_once('.')
+                .map(|(_, r)| r)
+                .unwrap_or(&inst.path);
+            reason.push_str(&format!(
+                " (`{path}` is a trusted synchronizer `{}`, but it is clocked in domain {src_dom}, not {})",
+                inst.module, d.domain
+            ));
+        }
         let mut f = Finding::new(
             ID,
             Severity::Error,

@@ -104,6 +104,16 @@ pub fn stage_time_s(period_s: f64, steps: u32, half: u32) -> Option<f64> {
     Some(total / f64::from(steps))
 }
 
+/// A source bit by name: `geo_trig[3]` for a bit of a vector, `trig_a` for a scalar.
+fn bit_name(ctx: &Ctx, leaf: Bit) -> String {
+    let sig = &ctx.n.sigs[leaf.0];
+    if sig.width.unwrap_or(1) > 1 && !sig.memory {
+        format!("{}[{}]", short(ctx, leaf.0), i64::from(leaf.1) + sig.lsb)
+    } else {
+        short(ctx, leaf.0)
+    }
+}
+
 /// `[mtbf.toggle]` rate of a source bit: the entry for the bit (`name[3]`), else the signal.
 fn toggle_rate(ctx: &Ctx, leaf: Bit) -> Option<(f64, String)> {
     let full = &ctx.n.sigs[leaf.0].name;
@@ -283,7 +293,7 @@ pub fn compute(ctx: &Ctx, cx: &Crossings) -> MtbfReport {
         let bits = estimates.len() as u32;
         let stages = d.bits.iter().map(|b| b.2).min().unwrap_or(min);
         let source = first_leaf
-            .map(|l| short(ctx, l.0))
+            .map(|l| bit_name(ctx, l))
             .or_else(|| d.sources.values().flatten().next().map(|s| short(ctx, *s)))
             .unwrap_or_default();
         let source_domain = d.sources.keys().next().cloned().unwrap_or_default();

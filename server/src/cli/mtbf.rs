@@ -198,11 +198,12 @@ pub fn human(r: &MtbfReport, solve: bool) -> String {
                 verdict(s).into(),
             ];
             if solve {
-                row.push(
-                    s.min_stages
-                        .map(|n| n.to_string())
-                        .unwrap_or_else(|| "> 10".into()),
-                );
+                let unknown = matches!(s.estimate, SyncEstimate::Unknown { .. });
+                row.push(match s.min_stages {
+                    Some(n) => n.to_string(),
+                    None if unknown => "–".into(),
+                    None => "> 10".into(),
+                });
                 row.push(
                     s.max_dest_hz
                         .map(format_frequency_limit)

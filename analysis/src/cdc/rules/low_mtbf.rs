@@ -165,19 +165,48 @@ pub fn check(_ctx: &Ctx, r: &MtbfReport, out: &mut Vec<Finding>) {
     } else {
         String::new()
     };
+    // one finding per place: a module instantiated many times names its instances
+    let mut places: Vec<(crate::model::Span, Vec<usize>)> = Vec::new();
     for &(i, _) in &figures[..k] {
         if flagged[i] {
             continue;
         }
-        let s = &r.synchronizers[i];
+        let span = &r.synchronizers[i].span;
+        match places.iter_mut().find(|(p, _)| p == span) {
+            Some((_, v)) => v.push(i),
+            None => places.push((span.clone(), vec![i])),
+        }
+    }
+    for (_, members) in places {
+        let s = &r.synchronizers[members[0]];
         let own = match s.estimate {
             SyncEstimate::Figure { fleet_log10_s, .. } => format_years(fleet_log10_s),
             _ => continue,
         };
+        let who = if members.len() == 1 {
+            "it is one of".to_string()
+        } else {
+            let names: Vec<String> = members
+                .iter()
+                .take(4)
+                .map(|&j| format!("`{}`", r.synchronizers[j].destination))
+                .collect();
+            let more = members.len().saturating_sub(4);
+            format!(
+                "{} instances of this chain ({}{}) are among",
+                members.len(),
+                names.join(", "),
+                if more > 0 {
+                    format!(" and {more} more")
+                } else {
+                    String::new()
+                }
+            )
+        };
         out.push(finding(
             s,
             format!(
-                "{}: estimated MTBF {own}{} meets the target alone, but the design total of {}{} is below the target of {target} years; it is one of the {k} weakest synchronizers ({:.0}% of the estimated failure rate) without which the design would meet it{uncounted} ({})",
+                "{}: estimated MTBF {own}{} meets the target alone, but the design total of {}{} is below the target of {target} years; {who} the {k} weakest synchronizers ({:.0}% of the estimated failure rate), without which the design would meet it{uncounted} ({})",
                 subject(s),
                 devices(r),
                 format_years(total),

@@ -862,6 +862,69 @@ fn cell_netlist(
                 });
             }
         }
+        Cell::ResetSynchronizer {
+            clock,
+            reset,
+            output,
+            stages,
+        } => {
+            // modelled as the chain it stands for: N flops on the cell's clock, reset by the
+            // raw reset to 0, stage 1 shifting in 1 (cdc::resets recognises it)
+            if let (Some(o), Some(c), Some(r)) = (get(n, output), get(n, clock), get(n, reset)) {
+                let path = n.insts[child].path.clone();
+                let one = Expr::Const {
+                    text: "1'b1".into(),
+                    value: Some(1),
+                    width: Some(1),
+                };
+                let zero = Expr::Const {
+                    text: "1'b0".into(),
+                    value: Some(0),
+                    width: Some(1),
+                };
+                let mut prev = one;
+                for k in 1..=(*stages).max(1) {
+                    let name = format!("{path}.rst_stage{k}");
+                    let local = format!("rst_stage{k}");
+                    add_sig(n, child, &name, &local, Some(1), 0, false, None, span);
+                    let q = Expr::Ident {
+                        name,
+                        loc: Loc::default(),
+                    };
+                    n.procs.push(Proc {
+                        inst: child,
+                        clock: Some((c.clone(), Edge::Posedge)),
+                        async_controls: vec![(r.clone(), false)],
+                        assigns: vec![
+                            FAssign {
+                                target: q.clone(),
+                                rhs: zero.clone(),
+                                guards: vec![],
+                                in_reset: true,
+                                span: span.clone(),
+                            },
+                            FAssign {
+                                target: q.clone(),
+                                rhs: prev,
+                                guards: vec![],
+                                in_reset: false,
+                                span: span.clone(),
+                            },
+                        ],
+                        span: span.clone(),
+                        file: 0,
+                    });
+                    prev = q;
+                }
+                n.combs.push(Comb {
+                    inst: parent,
+                    target: o,
+                    rhs: prev,
+                    span: span.clone(),
+                    port: true,
+                });
+            }
+        }
         Cell::Flop {
             clock,
             input,

@@ -202,8 +202,12 @@ impl Crossings {
         }
         // qualified crossings: every foreign read under a synchronized enable
         for i in 0..cx.dests.len() {
-            let q = cx.is_qualified(ctx, &cx.dests[i]);
+            let (q, outside) = cx.qualified_reads(ctx, &cx.dests[i]);
             cx.dests[i].qualified = q;
+            // some reads under the enable, one outside it: report the one outside
+            if let Some(sp) = outside {
+                cx.dests[i].read_span = sp;
+            }
         }
         // safe multi-bit schemes; a read of an asynchronous FIFO's storage is covered by it
         cx.schemes = crate::cdc::schemes::Schemes::compute(ctx, &cx);
@@ -342,10 +346,14 @@ impl Crossings {
 
     /// Every assignment of `d.reg` that reads a foreign signal sits under an AND-ed enable
     /// built from synchronizer stages of that source domain (and local terms).
-    fn is_qualified(&self, ctx: &Ctx, d: &Dest) -> bool {
+    /// Whether every foreign read is qualified; when some are and one is not, the span of
+    /// the first read outside the enable.
+    fn qualified_reads(&self, ctx: &Ctx, d: &Dest) -> (bool, Option<Span>) {
         let min = ctx.config.synchronizers.min_stages.max(1);
         let pi = ctx.g.reg_proc[&d.reg];
         let mut any = false;
+        let mut good = false;
+        let mut outside: Option<Span> = None;
         for a in ctx.n.procs[pi].assigns.iter().filter(|a| !a.in_reset) {
             if !crate::design::graph::targets(&a.target)
                 .iter()
@@ -369,11 +377,16 @@ impl Crossings {
                     .iter()
                     .any(|t| self.is_sync_enable(ctx, t, &d.domain, min))
             });
-            if !ok {
-                return false;
+            if ok {
+                good = true;
+            } else {
+                outside.get_or_insert_with(|| a.span.clone());
             }
         }
-        any
+        match outside {
+            None => (any, None),
+            Some(sp) => (false, good.then_some(sp)),
+        }
     }
 
     /// A term whose leaves are synchronizer stages (≥ min) or local registers, with at least

@@ -25,6 +25,8 @@ pub struct CdcResult {
     pub resets: HashMap<SigId, crate::report::ResetSource>,
     /// Per register: (stage k, of N) of its first reset-synchronizer stage bit.
     pub reset_stages: HashMap<SigId, (u32, u32)>,
+    /// Hover notes per register from the multi-bit schemes (`schemes::notes`).
+    pub scheme_notes: HashMap<SigId, Vec<String>>,
     /// MTBF of every synchronizer and of the design (`mtbf_table`).
     pub mtbf: crate::report::MtbfReport,
 }
@@ -117,6 +119,7 @@ pub fn run(ctx: &Ctx) -> CdcResult {
         stages,
         resets: rs.sources,
         reset_stages,
+        scheme_notes: schemes::notes(ctx, &cx),
         mtbf,
     }
 }

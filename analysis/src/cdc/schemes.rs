@@ -707,3 +707,47 @@ pub fn vector_crossings(ctx: &Ctx, cx: &Crossings) -> Vec<VectorCrossing> {
 pub fn is_copy(ctx: &Ctx, a: &FAssign, off: u32) -> bool {
     matches!(ctx.g.bit_of(&a.rhs, off), BitSrc::Copy(..))
 }
+
+/// Hover notes for the registers a safe multi-bit scheme covers: what was recognised and,
+/// for a qualified crossing, the hold requirement that structure cannot prove.
+pub fn notes(ctx: &Ctx, cx: &Crossings) -> HashMap<SigId, Vec<String>> {
+    let short = |s: SigId| crate::cdc::short(ctx, s);
+    let mut out: HashMap<SigId, Vec<String>> = HashMap::new();
+    for d in &cx.dests {
+        if !d.qualified || d.scheme.is_some() {
+            continue;
+        }
+        for (dom, srcs) in &d.sources {
+            let names: Vec<String> = srcs.iter().map(|s| format!("`{}`", short(*s))).collect();
+            out.entry(d.reg).or_default().push(format!(
+                "Qualified crossing: reads {} (domain `{dom}`) only under an enable synchronized from `{dom}`. \
+                 Structure cannot prove the rest: the source must hold {} stable from the request until the \
+                 capture is acknowledged (the designer's promise; Seam does not check it)",
+                names.join(", "),
+                if names.len() == 1 { "it" } else { "them" }
+            ));
+        }
+    }
+    for (g, info) in &cx.schemes.gray {
+        let dom = ctx.domain_of_reg(*g).unwrap_or("?");
+        let what = if info.counter == *g {
+            "a gray counter".to_string()
+        } else {
+            format!("gray code of counter `{}`", short(info.counter))
+        };
+        out.entry(*g).or_default().push(format!(
+            "Multi-bit scheme: {what} in domain `{dom}`; consecutive values differ in one bit (checked over {} values), so per-bit chains are safe",
+            info.checked
+        ));
+    }
+    for (m, f) in &cx.schemes.fifo {
+        out.entry(*m).or_default().push(format!(
+            "Asynchronous FIFO storage: written in `{}`, read in `{}`; pointers cross as gray code (`{}`, `{}`) through chains, and empty and full use the synchronized pointers",
+            f.write_domain,
+            f.read_domain,
+            short(f.write_gray),
+            short(f.read_gray)
+        ));
+    }
+    out
+}

@@ -404,6 +404,9 @@ fn analyze_here(models: &[FileModel], config: &Config) -> Analysis {
                 st.0, st.1, st.2
             ));
         }
+        if let Some(ns) = cdc.scheme_notes.get(&s) {
+            notes.extend(ns.iter().cloned());
+        }
         if let Some((k, of)) = cdc.reset_stages.get(&s) {
             notes.push(format!("reset synchronizer stage {k} of {of}"));
         }

@@ -35,7 +35,10 @@ pub(crate) fn meeting_points(ctx: &Ctx, cx: &Crossings, src: SigId, dom: &str) -
     regs.sort();
     let mut out = Vec::new();
     for (r, pi) in regs {
-        if ctx.domain_of_reg(*r) != Some(dom) || carried.contains_key(r) {
+        // a register that only copies synchronized bits is a further stage, not a meeting
+        let all_copies = (0..ctx.n.sigs[*r].width.unwrap_or(1).clamp(1, 256))
+            .all(|b| cx.schemes.carries.contains_key(&(*r, b)));
+        if ctx.domain_of_reg(*r) != Some(dom) || all_copies {
             continue;
         }
         let mut bits: BTreeSet<u32> = BTreeSet::new();

@@ -59,9 +59,17 @@ pub enum FixHint {
 /// The text of a file by its display path (the editor buffer or the file on disk).
 pub type TextOf<'a> = dyn Fn(&str) -> Option<String> + 'a;
 
+/// The model of a file by its display path (the one the analysis used).
+pub type ModelOf<'a> = dyn Fn(&str) -> Option<&'a FileModel> + 'a;
+
+/// [`ModelOf`] over a slice of models.
+pub fn in_slice<'a>(files: &'a [FileModel]) -> impl Fn(&str) -> Option<&'a FileModel> + 'a {
+    move |p: &str| files.iter().find(|m| m.path == p)
+}
+
 /// Every fix for a finding: the RTL fix first (when there is one), then the waiver.
 /// Waived findings and syntax errors get none.
-pub fn fixes_for(f: &Finding, files: &[FileModel], text_of: &TextOf) -> Vec<Fix> {
+pub fn fixes_for<'m>(f: &Finding, files: &ModelOf<'m>, text_of: &TextOf) -> Vec<Fix> {
     let mut out = Vec::new();
     if f.waived || f.rule == "syntax-error" {
         return out;
@@ -82,7 +90,11 @@ pub fn fixes_for(f: &Finding, files: &[FileModel], text_of: &TextOf) -> Vec<Fix>
 
 /// Why no RTL fix is offered for this finding, when one kind of fix applies to its rule but
 /// not here (for hover and disabled code actions).
-pub fn unavailable_reason(f: &Finding, files: &[FileModel], text_of: &TextOf) -> Option<String> {
+pub fn unavailable_reason<'m>(
+    f: &Finding,
+    files: &ModelOf<'m>,
+    text_of: &TextOf,
+) -> Option<String> {
     match &f.fix {
         Some(FixHint::Unavailable { reason }) => Some(reason.clone()),
         Some(FixHint::Synchronizer(h)) => synchronizer::fix(f, h, files, text_of).err(),

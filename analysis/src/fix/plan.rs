@@ -4,10 +4,11 @@
 
 use std::collections::HashSet;
 
+use super::enable_strobe::StrobeHint;
 use super::synchronizer::SyncHint;
 use super::FixHint;
 use crate::cdc::crossings::{Bit, Crossings, DIn, Dest};
-use crate::cdc::rules::{pulse_loss, unsynchronized_crossing};
+use crate::cdc::rules::{derived_clock, pulse_loss, unsynchronized_crossing};
 use crate::cdc::short;
 use crate::design::graph::{const_of, targets, BitSrc};
 use crate::design::netlist::SigId;
@@ -30,8 +31,106 @@ pub fn annotate(ctx: &Ctx, cx: &Crossings, findings: &mut [Finding]) {
                 Ok(h) => FixHint::Synchronizer(h),
                 Err(reason) => FixHint::Unavailable { reason },
             });
+        } else if f.rule == derived_clock::ID {
+            f.fix = Some(match strobe_hint(ctx, f) {
+                Ok(h) => FixHint::EnableStrobe(h),
+                Err(reason) => FixHint::Unavailable { reason },
+            });
         }
     }
+}
+
+/// The (divider, bit) a process's clock is, through plain copies.
+fn clock_bit(ctx: &Ctx, pi: usize) -> Option<(Bit, crate::model::Edge)> {
+    let (e, edge) = ctx.n.procs[pi].clock.as_ref()?;
+    match ctx.g.bit_of(e, 0) {
+        BitSrc::Copy(s, b) => {
+            let (ls, lb, _) = ctx.g.through_copies(s, b);
+            Some(((ls, lb), *edge))
+        }
+        _ => None,
+    }
+}
+
+fn strobe_hint(ctx: &Ctx, f: &Finding) -> Result<StrobeHint, String> {
+    let pi = ctx
+        .n
+        .procs
+        .iter()
+        .position(|p| p.span == f.span)
+        .ok_or("the process was not found again")?;
+    let ((q, k), _) = clock_bit(ctx, pi).ok_or(
+        "the clock reaches the process through logic (an inverter?): not rewritten automatically",
+    )?;
+    if !ctx.g.is_reg(q) {
+        return Err("the clock is not a register bit".into());
+    }
+    let inst = ctx.n.sigs[q].inst;
+    let (fi, mi) = ctx.n.insts[inst].def.ok_or("no module definition")?;
+    let dp = ctx.g.reg_proc[&q];
+    if ctx
+        .reg_clock
+        .get(&q)
+        .is_some_and(|rc| !rc.trace.derived.is_empty())
+    {
+        return Err("the divider is itself on a derived clock (a ripple chain): not rewritten automatically".into());
+    }
+    if ctx.n.procs[dp].file != fi {
+        return Err("the divider's process comes from another file".into());
+    }
+    // every process on this clock bit, all in this instance
+    let mut procs = Vec::new();
+    for (i, p) in ctx.n.procs.iter().enumerate() {
+        if p.clock.is_none() || clock_bit(ctx, i).map(|c| c.0) != Some((q, k)) {
+            continue;
+        }
+        if p.inst != inst || p.file != fi {
+            return Err(format!(
+                "the derived clock leaves the module `{}` (it clocks logic elsewhere): no clock-enable rewrite",
+                ctx.n.insts[inst].module
+            ));
+        }
+        procs.push(p.span.start);
+    }
+    // the clock must not leave through a port (an output, or a child instance's input)
+    let clock_nets: Vec<SigId> = ctx
+        .reg_clock
+        .values()
+        .filter(|rc| rc.trace.derived.contains(&q))
+        .flat_map(|rc| rc.trace.nets.iter().copied())
+        .collect();
+    for c in &ctx.n.combs {
+        let leaves_via_port = c.port
+            && c.rhs.idents().iter().any(|id| {
+                ctx.g
+                    .sig(id)
+                    .is_some_and(|s| s == q || clock_nets.contains(&s))
+            });
+        if leaves_via_port {
+            return Err(format!(
+                "the derived clock leaves the module `{}` through a port: no clock-enable rewrite",
+                ctx.n.insts[inst].module
+            ));
+        }
+    }
+    if ctx.n.sigs[q].port == Some(crate::model::Direction::Output) {
+        return Err(
+            "the divider register is an output port: the derived clock leaves the module".into(),
+        );
+    }
+    let local = ctx.n.sigs[q].local.clone();
+    if !local.chars().all(|c| c.is_ascii_alphanumeric() || c == '_') {
+        return Err(format!("`{local}` is not a plain name of the module"));
+    }
+    let w = ctx.n.sigs[q].width.unwrap_or(1);
+    Ok(StrobeHint {
+        file: ctx.files[fi].path.clone(),
+        module: ctx.files[fi].modules[mi].name.clone(),
+        divider: local,
+        bit: (w > 1).then(|| k as i64 + ctx.n.sigs[q].lsb),
+        divider_proc: ctx.n.procs[dp].span.start,
+        procs,
+    })
 }
 
 fn is_flagged(d: &Dest, flagged: &HashSet<(String, usize)>) -> bool {

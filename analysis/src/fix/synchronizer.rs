@@ -13,9 +13,9 @@ use serde::{Deserialize, Serialize};
 use super::text::{
     bit_select_end, fresh_names, ident_of, indent_at, indent_unit, line_start, names_in, newline,
 };
-use super::{Fix, TextEdit, TextOf};
+use super::{Fix, ModelOf, TextEdit, TextOf};
 use crate::finding::Finding;
-use crate::model::{render, Edge, Expr, FileModel, ItemKind, Language, Process, ProcessKind};
+use crate::model::{render, Edge, Expr, ItemKind, Language, Process, ProcessKind};
 
 /// What the design layer found for this crossing (see `fix::plan`).
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
@@ -44,16 +44,13 @@ fn top_process(m: &crate::model::Module, start: usize) -> Option<&Process> {
 }
 
 /// The edits, or why the fix cannot be made on this text.
-pub fn fix(
+pub fn fix<'m>(
     f: &Finding,
     h: &SyncHint,
-    files: &[FileModel],
+    files: &ModelOf<'m>,
     text_of: &TextOf,
 ) -> Result<Fix, String> {
-    let model = files
-        .iter()
-        .find(|m| m.path == h.file)
-        .ok_or("the destination file is not in the design")?;
+    let model = files(&h.file).ok_or("the destination file is not in the design")?;
     let text = text_of(&h.file).ok_or("the destination file cannot be read")?;
     let m = model
         .modules

@@ -374,7 +374,7 @@ impl LanguageServer for Backend {
         let Some(file) = sh.file(&key) else {
             return Ok(None);
         };
-        Ok(Some(actions::actions(&p, &file, sh.encoding)))
+        Ok(Some(actions::actions(&p, &sh, &key, &file)))
     }
 
     async fn execute_command(&self, p: ExecuteCommandParams) -> RpcResult<Option<Value>> {

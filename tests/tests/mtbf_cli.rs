@@ -212,7 +212,9 @@ fn two_stages_miss_the_target_and_three_meet_it() {
     ] {
         assert!(msg.contains(&needle), "{needle:?} not in {msg}");
     }
-    assert!(fs.iter().all(|f| f["line"] != line_of(&rtl, "b_s1 <= trig_b")));
+    assert!(fs
+        .iter()
+        .all(|f| f["line"] != line_of(&rtl, "b_s1 <= trig_b")));
 }
 
 #[test]
@@ -325,7 +327,11 @@ fn unknown_frequencies_name_the_setting_and_the_setting_works() {
 
     // following the advice gives figures: the named keys are the ones seam reads
     let t = copy_fixture("unknown");
-    edit_toml(t.path(), "clk_hk = {}", "clk_hk = { frequency = \"1 MHz\" }");
+    edit_toml(
+        t.path(),
+        "clk_hk = {}",
+        "clk_hk = { frequency = \"1 MHz\" }",
+    );
     let p = t.path().join("seam.toml");
     let mut text = std::fs::read_to_string(&p).unwrap();
     text.push_str("\n[mtbf.toggle]\ngain_q = \"5 Hz\"\n");
@@ -362,7 +368,8 @@ fn lambert_min_period_s(target_s: f64, t_setup_s: f64, tau_s: f64, t0_s: f64, a:
     tau_s * lambert_w0(target_s * t0_s * a * (t_setup_s / tau_s).exp() / tau_s)
 }
 
-const TWO_FLOP: &str = "// Seismic recorder: a tamper switch into the logger clock through two flops.
+const TWO_FLOP: &str =
+    "// Seismic recorder: a tamper switch into the logger clock through two flops.
 module sr_tamper (
     input  wire clk_log,
     input  wire tamper,     // asynchronous
@@ -432,7 +439,10 @@ fn human_table_shows_the_caution_and_never_inf() {
         let text = String::from_utf8_lossy(&out.stdout);
         assert!(text.contains("not silicon data"), "{name}: {text}");
         assert!(text.contains("design total"), "{name}: {text}");
-        assert!(!text.contains("inf") && !text.contains("NaN"), "{name}: {text}");
+        assert!(
+            !text.contains("inf") && !text.contains("NaN"),
+            "{name}: {text}"
+        );
     }
     // a bad seam.toml is a one-line error and exit 2 (docs/cli.md)
     let t = copy_fixture("stages");

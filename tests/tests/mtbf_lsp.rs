@@ -17,10 +17,7 @@ const YEAR_S: f64 = 365.25 * 86_400.0;
 
 fn fixture_copy(name: &str) -> tempfile::TempDir {
     let d = tempfile::tempdir().unwrap();
-    copy_tree(
-        &seam_tests::fixtures().join("mtbf").join(name),
-        d.path(),
-    );
+    copy_tree(&seam_tests::fixtures().join("mtbf").join(name), d.path());
     d
 }
 
@@ -73,7 +70,10 @@ fn hover_on(c: &mut LspClient, uri: &str, lines: &[String], line_has: &str, word
         "textDocument/hover",
         json!({ "textDocument": { "uri": uri }, "position": { "line": l, "character": ch } }),
     );
-    assert_eq!(h["contents"]["kind"], "markdown", "LSP 3.17 MarkupContent: {h}");
+    assert_eq!(
+        h["contents"]["kind"], "markdown",
+        "LSP 3.17 MarkupContent: {h}"
+    );
     h["contents"]["value"].as_str().unwrap().to_string()
 }
 
@@ -121,7 +121,10 @@ fn hover_on_a_stage_shows_the_inputs_the_figure_and_the_caution() {
     // the three-stage chain meets it
     let md = hover_on(&mut c, &uri, &lines, "reg b_s1, b_s2, b_s3;", "b_s2");
     let three = years(3, 2e-9, 150e-12, 100e-12, 50e-12, 500e6, 1e6);
-    assert!(md.contains(&printed_years(three)) && md.contains("meets it"), "{md}");
+    assert!(
+        md.contains(&printed_years(three)) && md.contains("meets it"),
+        "{md}"
+    );
     // negative: a register that is no stage has no MTBF lines
     let md = hover_on(&mut c, &uri, &lines, "output reg  [7:0] count_a", "count_a");
     assert!(!md.contains("MTBF estimate"), "{md}");
@@ -137,7 +140,10 @@ fn hover_names_the_setting_when_a_frequency_is_unknown() {
         md.contains("[clocks] clk_hk = { frequency = \"…\" }"),
         "the seam.toml key instead of a number:\n{md}"
     );
-    assert!(!md.contains(" years"), "no figure without a frequency:\n{md}");
+    assert!(
+        !md.contains(" years"),
+        "no figure without a frequency:\n{md}"
+    );
     let md = hover_on(&mut c, &uri, &lines, "reg gain_s1;", "gain_s1");
     assert!(md.contains("f_clk = 200 MHz"), "{md}");
     assert!(md.contains("[mtbf.toggle] gain_q"), "{md}");

@@ -170,11 +170,14 @@ pub fn human(r: &MtbfReport, solve: bool) -> String {
                 "f_data",
                 "t_r",
                 "MTBF (all bits)",
-                "target",
             ]
             .iter()
             .map(|s| s.to_string())
             .collect();
+            if r.units > 1 {
+                h.push(format!("across {devices}"));
+            }
+            h.push("target".into());
             if solve {
                 h.push("min N".into());
                 h.push("max f_clk".into());
@@ -195,8 +198,14 @@ pub fn human(r: &MtbfReport, solve: bool) -> String {
                     .unwrap_or_else(|| "?".into()),
                 s.t_r_s.map(format_time).unwrap_or_else(|| "–".into()),
                 figure_text(s),
-                verdict(s).into(),
             ];
+            if r.units > 1 {
+                row.push(match &s.estimate {
+                    SyncEstimate::Figure { fleet_log10_s, .. } => format_years(*fleet_log10_s),
+                    _ => figure_text(s),
+                });
+            }
+            row.push(verdict(s).into());
             if solve {
                 let unknown = matches!(s.estimate, SyncEstimate::Unknown { .. });
                 row.push(match s.min_stages {

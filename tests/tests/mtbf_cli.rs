@@ -451,3 +451,42 @@ fn human_table_shows_the_caution_and_never_inf() {
     assert_eq!(out.status.code(), Some(2));
     assert_eq!(String::from_utf8_lossy(&out.stderr).lines().count(), 1);
 }
+
+#[test]
+fn low_mtbf_is_waived_and_configured_like_any_rule() {
+    // docs/rules/low-mtbf.md "Waiving" and "Configuration"
+    let t = copy_fixture("stages");
+    let rtl = t.path().join("sr_trigger.v");
+    let text = std::fs::read_to_string(&rtl).unwrap();
+    std::fs::write(
+        &rtl,
+        text.replace(
+            "    a_s1 <= trig_a;",
+            "    // seam: allow(low-mtbf) trig_a is debounced on the board\n    a_s1 <= trig_a;",
+        ),
+    )
+    .unwrap();
+    let fs = low_mtbf_findings(t.path());
+    assert_eq!(fs.len(), 1);
+    assert_eq!(fs[0]["waived"], true, "{:#}", fs[0]);
+    assert_eq!(
+        fs[0]["waiver_reason"], "trig_a is debounced on the board",
+        "{:#}",
+        fs[0]
+    );
+
+    let t = copy_fixture("stages");
+    let p = t.path().join("seam.toml");
+    let mut toml = std::fs::read_to_string(&p).unwrap();
+    toml.push_str("\n[rules]\nlow-mtbf = \"error\"\n");
+    std::fs::write(&p, &toml).unwrap();
+    let fs = low_mtbf_findings(t.path());
+    assert_eq!(fs.len(), 1);
+    assert_eq!(fs[0]["severity"], "error");
+    std::fs::write(
+        &p,
+        toml.replace("low-mtbf = \"error\"", "low-mtbf = \"off\""),
+    )
+    .unwrap();
+    assert!(low_mtbf_findings(t.path()).is_empty());
+}

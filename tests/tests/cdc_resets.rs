@@ -35,6 +35,13 @@ fn setup(file: &str, text: Option<&str>) -> tempfile::TempDir {
 }
 
 /// The fixture plus the simulation model of the library cell that `[cells]` declares.
+/// Like `setup`, with another seam.toml.
+fn setup_toml(file: &str, text: Option<&str>, toml: &str) -> tempfile::TempDir {
+    let d = setup(file, text);
+    std::fs::write(d.path().join("seam.toml"), toml).unwrap();
+    d
+}
+
 fn compiles(d: &Path, file: &str) {
     iverilog_compiles(
         &[d.join(file), dir().join("cells").join("irr_rstsync.v")],
@@ -531,4 +538,39 @@ fn reset_release_verdicts_match_simulation() {
     assert!(s4 >= 1 && u4 >= 1, "r4: {s4} synchronized, {u4} not");
     let (s7, u7) = check_against_simulation("r7_modules.v", "r7_modules", "rst_n", false);
     assert!(s7 >= 2 && u7 >= 1, "r7: {s7} synchronized, {u7} not");
+}
+
+/// A reset input that `[inputs]` does not list: in step with the one domain it resets raw
+/// (a block whose reset comes from outside), unless it resets raw flops of two domains or
+/// also feeds a reset synchronizer (then it is known to be asynchronous).
+#[test]
+fn unlisted_reset_inputs() {
+    let toml = "[clocks]\nclk_ctl = { frequency = \"50 MHz\" }\nclk_valve = { frequency = \"8 MHz\" }\n\n[inputs]\nmoist_in = \"clk_ctl\"\n";
+    let count = |d: &Path| findings(d).iter().filter(|f| f.0 == RULE).count();
+    // one domain: clean; the same block with the pin listed as asynchronous: both processes
+    let d = setup_toml("r9_block.v", None, toml);
+    compiles(d.path(), "r9_block.v");
+    assert_eq!(count(d.path()), 0, "{:#?}", findings(d.path()));
+    let d = setup_toml("r9_block.v", None, &format!("{toml}rst_n = \"async\"\n"));
+    assert_eq!(count(d.path()), 2, "{:#?}", findings(d.path()));
+    // two domains: every raw process, listed or not
+    let d = setup_toml("r1_raw.v", None, toml);
+    assert_eq!(count(d.path()), 3, "{:#?}", findings(d.path()));
+    // one domain raw, but the pin also feeds the valve synchronizer: the raw use is reported
+    let text = std::fs::read_to_string(dir().join("r2_sync.v")).unwrap();
+    let old = "  always @(posedge clk_ctl or negedge rst_ctl_n)\n    if (!rst_ctl_n) ctl_cnt";
+    assert!(text.contains(old));
+    let mixed = text.replacen(
+        old,
+        "  always @(posedge clk_ctl or negedge rst_n)\n    if (!rst_n) ctl_cnt",
+        1,
+    );
+    let d = setup_toml("r2_sync.v", Some(&mixed), toml);
+    compiles(d.path(), "r2_sync.v");
+    let got = findings(d.path());
+    let line = line_of(&mixed, "always @(posedge clk_ctl or negedge rst_n)", 1);
+    assert!(
+        got.len() == 1 && got[0].0 == RULE && got[0].1 == line,
+        "expected one {RULE} at line {line}: {got:#?}"
+    );
 }

@@ -285,6 +285,54 @@ impl Resets {
                 _ => None,
             })
             .collect();
+        let exempt_of = |regs: &[SigId]| {
+            regs.iter().all(|&r| {
+                (0..width(ctx, r)).all(|b| {
+                    stages
+                        .get(&(r, b))
+                        .is_some_and(|st| st.stuck || st.n >= min)
+                })
+            })
+        };
+        // A top-level reset input that `[inputs]` does not list (with `unconstrained_inputs =
+        // "ignore"`) is taken to be in step with the one domain whose flops it resets raw,
+        // as a block's reset from a reset controller outside it is. It cannot be in step
+        // with two domains, and one that also feeds a reset synchronizer is known to be
+        // asynchronous: then every raw use is judged.
+        let mut raw_doms: HashMap<SigId, BTreeSet<String>> = HashMap::new();
+        let mut feeds_sync: BTreeSet<SigId> = BTreeSet::new();
+        for (&pi, regs) in &by_proc {
+            let Some(ctl) = traced.get(&pi) else { continue };
+            let exempt = exempt_of(regs);
+            let dom = regs.iter().find_map(|r| ctx.domain_of_reg(*r));
+            for l in ctl.iter().flat_map(|c| c.2.iter()) {
+                let End::Signal((s, _)) = l.end else { continue };
+                if !ctx.n.top_inputs.contains(&s) {
+                    continue;
+                }
+                if exempt {
+                    feeds_sync.insert(s);
+                } else if let Some(d) = dom {
+                    raw_doms.entry(s).or_default().insert(d.to_string());
+                }
+            }
+        }
+        let ignore =
+            ctx.config.design.unconstrained_inputs == crate::config::UnconstrainedInputs::Ignore;
+        let assumed: HashMap<SigId, String> = raw_doms
+            .into_iter()
+            .filter(|(s, doms)| {
+                ignore
+                    && doms.len() == 1
+                    && !feeds_sync.contains(s)
+                    && !ctx
+                        .config
+                        .inputs
+                        .contains_key(ctx.n.sigs[*s].local.as_str())
+            })
+            .filter_map(|(s, doms)| doms.into_iter().next().map(|d| (s, d)))
+            .collect();
+
         // every process with asynchronous controls: classify each leaf
         let mut procs = Vec::new();
         let mut sources = HashMap::new();
@@ -297,13 +345,7 @@ impl Resets {
             // an untraced clock: the tree is still described, not judged
             let domain = regs.iter().find_map(|r| ctx.domain_of_reg(*r));
             let domain = domain.map(|d| d.to_string());
-            let exempt = regs.iter().all(|&r| {
-                (0..width(ctx, r)).all(|b| {
-                    stages
-                        .get(&(r, b))
-                        .is_some_and(|st| st.stuck || st.n >= min)
-                })
-            });
+            let exempt = exempt_of(regs);
             let mut controls = Vec::new();
             for (e, high, leaves) in ctl {
                 let mut problems = Vec::new();
@@ -318,7 +360,7 @@ impl Resets {
                     let Some(domain) = domain.as_deref() else {
                         continue;
                     };
-                    if let Some(p) = classify(ctx, &stages, l, *high, domain, min) {
+                    if let Some(p) = classify(ctx, &stages, &assumed, l, *high, domain, min) {
                         problems.push((l.clone(), p));
                     }
                 }
@@ -386,6 +428,7 @@ pub fn stage_assign(ctx: &Ctx, bit: Bit) -> Option<Span> {
 fn classify(
     ctx: &Ctx,
     stages: &HashMap<Bit, RstStage>,
+    assumed: &HashMap<SigId, String>,
     l: &TLeaf,
     active_high: bool,
     domain: &str,
@@ -397,7 +440,7 @@ fn classify(
     if ctx.n.top_inputs.contains(&s) {
         // `[inputs]` may put a reset pin in a clock's domain (released by an outside
         // controller in step with that clock)
-        let d = ctx.leaf_domain(s);
+        let d = ctx.leaf_domain(s).or_else(|| assumed.get(&s).cloned());
         return match d.as_deref() {
             Some(x) if x == domain => None,
             _ => Some(Problem::TopInput { port: s, domain: d }),

@@ -44,7 +44,7 @@ fn setup_toml(file: &str, text: Option<&str>, toml: &str) -> tempfile::TempDir {
 
 fn compiles(d: &Path, file: &str) {
     iverilog_compiles(
-        &[d.join(file), dir().join("cells").join("irr_rstsync.v")],
+        &[d.join(file), dir().join("irr_rstsync_model.v")],
         &[],
     )
     .unwrap_or_else(|e| panic!("iverilog rejects {file}: {e}"));
@@ -411,7 +411,7 @@ fn simulate(
         .arg(&sim)
         .arg(&tbf)
         .arg(d.join(file))
-        .arg(dir().join("cells").join("irr_rstsync.v"))
+        .arg(dir().join("irr_rstsync_model.v"))
         .output()
         .expect("iverilog");
     assert!(c.status.success(), "{}", String::from_utf8_lossy(&c.stderr));

@@ -150,9 +150,10 @@ pub fn run(
             if f.waived || !(rtl || waive) {
                 continue;
             }
-            let Some(fx) = chosen(req, f, fix::fixes_for(f, &models, &text_of)) else {
+            let Some(fx) = chosen(req, f, fix::fixes_for(f, &fix::in_slice(&models), &text_of))
+            else {
                 if rtl && reported.insert(identity(f)) {
-                    let why = fix::unavailable_reason(f, &models, &text_of)
+                    let why = fix::unavailable_reason(f, &fix::in_slice(&models), &text_of)
                         .unwrap_or_else(|| "this rule has no automatic fix".into());
                     eprintln!(
                         "seam: no fix for {} at {}:{}: {why}",

@@ -123,8 +123,6 @@ fn fixtures_give_exactly_the_expected_findings() {
             "r7_modules.v",
             &[("always @(posedge clk or negedge rst_n)", 1)],
         ),
-        // a parametrised synchronizer module (part-select shift with parameter bounds)
-        ("r10_param.sv", &[]),
         // a trusted `[cells]` reset synchronizer: right for its own domain only
         (
             "r8_cells.v",
@@ -535,8 +533,6 @@ fn reset_release_verdicts_match_simulation() {
     // the negative case: a control-domain synchronizer releases valve flops off valve edges
     let (s4, u4) = check_against_simulation("r4_wrong_domain.v", "r4_wrong_domain", "rst_n", false);
     assert!(s4 >= 1 && u4 >= 1, "r4: {s4} synchronized, {u4} not");
-    let (s10, u10) = check_against_simulation("r10_param.sv", "r10_param", "rst_n", false);
-    assert!(s10 == 2 && u10 == 0, "r10: {s10} synchronized, {u10} not");
     let (s7, u7) = check_against_simulation("r7_modules.v", "r7_modules", "rst_n", false);
     assert!(s7 >= 2 && u7 >= 1, "r7: {s7} synchronized, {u7} not");
 }

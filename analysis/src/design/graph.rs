@@ -274,17 +274,6 @@ pub fn const_of(e: &Expr) -> Option<i64> {
     match e {
         Expr::Const { value, .. } => value.map(|v| v as i64),
         Expr::Unary { op, arg } if op == "-" => const_of(arg).map(|v| -v),
-        // parameters are substituted by elaboration: `s[N-2:0]` has constant bounds
-        Expr::Binary { op, lhs, rhs } => {
-            let (a, b) = (const_of(lhs)?, const_of(rhs)?);
-            match op.as_str() {
-                "+" => a.checked_add(b),
-                "-" => a.checked_sub(b),
-                "*" => a.checked_mul(b),
-                "/" if b != 0 => a.checked_div(b),
-                _ => None,
-            }
-        }
         _ => None,
     }
 }

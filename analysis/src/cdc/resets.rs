@@ -285,6 +285,17 @@ impl Resets {
                 _ => None,
             })
             .collect();
+        // a process of synchronizer stages only: its raw reset is intended. A stuck chain
+        // (a flop that shifts in its own reset value) never changes on release either.
+        let real_sync_of = |regs: &[SigId]| {
+            regs.iter().all(|&r| {
+                (0..width(ctx, r)).all(|b| {
+                    stages
+                        .get(&(r, b))
+                        .is_some_and(|st| !st.stuck && st.n >= min)
+                })
+            })
+        };
         let exempt_of = |regs: &[SigId]| {
             regs.iter().all(|&r| {
                 (0..width(ctx, r)).all(|b| {
@@ -304,14 +315,17 @@ impl Resets {
         for (&pi, regs) in &by_proc {
             let Some(ctl) = traced.get(&pi) else { continue };
             let exempt = exempt_of(regs);
+            let real_sync = real_sync_of(regs);
             let dom = regs.iter().find_map(|r| ctx.domain_of_reg(*r));
             for l in ctl.iter().flat_map(|c| c.2.iter()) {
                 let End::Signal((s, _)) = l.end else { continue };
                 if !ctx.n.top_inputs.contains(&s) {
                     continue;
                 }
-                if exempt {
+                if real_sync {
                     feeds_sync.insert(s);
+                } else if exempt {
+                    // constant flops: not a use that is released
                 } else if let Some(d) = dom {
                     raw_doms.entry(s).or_default().insert(d.to_string());
                 }

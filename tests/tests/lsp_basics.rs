@@ -132,6 +132,15 @@ fn syntax_errors_match_the_checker_and_clear() {
         .find(|r| r["method"] == "window/workDoneProgress/create")
         .map(|r| r["params"]["token"].clone())
         .expect("a progress token was created");
+    // the end may follow the first diagnostics: wait for it (bounded by the client's timeout)
+    let ended = c.wait_until(|c| {
+        c.notifications.iter().any(|n| {
+            n["method"] == "$/progress"
+                && n["params"]["token"] == token
+                && n["params"]["value"]["kind"] == "end"
+        })
+    });
+    assert!(ended, "indexing progress never ended");
     let kinds: Vec<String> = c
         .notifications
         .iter()

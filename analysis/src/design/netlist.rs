@@ -712,6 +712,72 @@ fn instantiate(
     }
 }
 
+/// A chain of flops that stands for a synchronizer cell.
+struct CellChain {
+    /// Stage names: `<prefix>1`, `<prefix>2`, ...
+    prefix: &'static str,
+    width: Option<u32>,
+    clock: Expr,
+    /// Active-low async reset of every stage (to 0), for reset synchronizers.
+    reset: Option<Expr>,
+    /// What stage 1 samples.
+    first: Expr,
+    /// The parent's net that the last stage drives.
+    output: Expr,
+    stages: u32,
+}
+
+fn cell_chain(n: &mut Netlist, parent: usize, child: usize, span: &Span, c: CellChain) {
+    let path = n.insts[child].path.clone();
+    let mut prev = c.first;
+    for k in 1..=c.stages.max(1) {
+        let name = format!("{path}.{}{k}", c.prefix);
+        let local = format!("{}{k}", c.prefix);
+        add_sig(n, child, &name, &local, c.width, 0, false, None, span);
+        let q = Expr::Ident {
+            name,
+            loc: Loc::default(),
+        };
+        let mut assigns = Vec::new();
+        if c.reset.is_some() {
+            assigns.push(FAssign {
+                target: q.clone(),
+                rhs: Expr::Const {
+                    text: "1'b0".into(),
+                    value: Some(0),
+                    width: Some(1),
+                },
+                guards: vec![],
+                in_reset: true,
+                span: span.clone(),
+            });
+        }
+        assigns.push(FAssign {
+            target: q.clone(),
+            rhs: prev,
+            guards: vec![],
+            in_reset: false,
+            span: span.clone(),
+        });
+        n.procs.push(Proc {
+            inst: child,
+            clock: Some((c.clock.clone(), Edge::Posedge)),
+            async_controls: c.reset.iter().map(|r| (r.clone(), false)).collect(),
+            assigns,
+            span: span.clone(),
+            file: 0,
+        });
+        prev = q;
+    }
+    n.combs.push(Comb {
+        inst: parent,
+        target: c.output,
+        rhs: prev,
+        span: span.clone(),
+        port: true,
+    });
+}
+
 /// Model a `[cells]` instance by what its pins mean.
 fn cell_netlist(
     n: &mut Netlist,
@@ -818,48 +884,16 @@ fn cell_netlist(
                     .base_name()
                     .and_then(|b| n.by_name.get(b))
                     .and_then(|s| n.sigs[*s].width);
-                let path = n.insts[child].path.clone();
-                let mut prev = i;
-                for k in 1..=(*stages).max(1) {
-                    let name = format!("{path}.stage{k}");
-                    add_sig(
-                        n,
-                        child,
-                        &name,
-                        &format!("stage{k}"),
-                        width,
-                        0,
-                        false,
-                        None,
-                        span,
-                    );
-                    let q = Expr::Ident {
-                        name,
-                        loc: Loc::default(),
-                    };
-                    n.procs.push(Proc {
-                        inst: child,
-                        clock: Some((c.clone(), Edge::Posedge)),
-                        async_controls: vec![],
-                        assigns: vec![FAssign {
-                            target: q.clone(),
-                            rhs: prev,
-                            guards: vec![],
-                            in_reset: false,
-                            span: span.clone(),
-                        }],
-                        span: span.clone(),
-                        file: 0,
-                    });
-                    prev = q;
-                }
-                n.combs.push(Comb {
-                    inst: parent,
-                    target: o,
-                    rhs: prev,
-                    span: span.clone(),
-                    port: true,
-                });
+                let chain = CellChain {
+                    prefix: "stage",
+                    width,
+                    clock: c,
+                    reset: None,
+                    first: i,
+                    output: o,
+                    stages: *stages,
+                };
+                cell_chain(n, parent, child, span, chain);
             }
         }
         Cell::ResetSynchronizer {
@@ -871,58 +905,20 @@ fn cell_netlist(
             // modelled as the chain it stands for: N flops on the cell's clock, reset by the
             // raw reset to 0, stage 1 shifting in 1 (cdc::resets recognises it)
             if let (Some(o), Some(c), Some(r)) = (get(n, output), get(n, clock), get(n, reset)) {
-                let path = n.insts[child].path.clone();
-                let one = Expr::Const {
-                    text: "1'b1".into(),
-                    value: Some(1),
+                let chain = CellChain {
+                    prefix: "rst_stage",
                     width: Some(1),
+                    clock: c,
+                    reset: Some(r),
+                    first: Expr::Const {
+                        text: "1'b1".into(),
+                        value: Some(1),
+                        width: Some(1),
+                    },
+                    output: o,
+                    stages: *stages,
                 };
-                let zero = Expr::Const {
-                    text: "1'b0".into(),
-                    value: Some(0),
-                    width: Some(1),
-                };
-                let mut prev = one;
-                for k in 1..=(*stages).max(1) {
-                    let name = format!("{path}.rst_stage{k}");
-                    let local = format!("rst_stage{k}");
-                    add_sig(n, child, &name, &local, Some(1), 0, false, None, span);
-                    let q = Expr::Ident {
-                        name,
-                        loc: Loc::default(),
-                    };
-                    n.procs.push(Proc {
-                        inst: child,
-                        clock: Some((c.clone(), Edge::Posedge)),
-                        async_controls: vec![(r.clone(), false)],
-                        assigns: vec![
-                            FAssign {
-                                target: q.clone(),
-                                rhs: zero.clone(),
-                                guards: vec![],
-                                in_reset: true,
-                                span: span.clone(),
-                            },
-                            FAssign {
-                                target: q.clone(),
-                                rhs: prev,
-                                guards: vec![],
-                                in_reset: false,
-                                span: span.clone(),
-                            },
-                        ],
-                        span: span.clone(),
-                        file: 0,
-                    });
-                    prev = q;
-                }
-                n.combs.push(Comb {
-                    inst: parent,
-                    target: o,
-                    rhs: prev,
-                    span: span.clone(),
-                    port: true,
-                });
+                cell_chain(n, parent, child, span, chain);
             }
         }
         Cell::Flop {

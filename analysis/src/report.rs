@@ -101,7 +101,11 @@ impl ResetSource {
     /// `top-level input rst_n (active low)`.
     pub fn text(&self) -> String {
         let leaf = |l: &ResetLeafInfo| -> String {
-            let dom = l.domain.as_deref().map(|d| format!(" of {d}")).unwrap_or_default();
+            let dom = l
+                .domain
+                .as_deref()
+                .map(|d| format!(" of {d}"))
+                .unwrap_or_default();
             match l.kind {
                 ResetLeafKind::TopInput => format!("top-level input {}", l.name),
                 ResetLeafKind::Register => format!("register {}{dom}", l.name),

@@ -405,7 +405,10 @@ impl LanguageServer for Backend {
                 let design = sh.design();
                 let text = crate::cli::mtbf::human(&design.analysis.mtbf, true);
                 self.client.show_message(MessageType::INFO, text).await;
-                Ok(Some(crate::cli::mtbf::report_json(&design.analysis.mtbf, true)))
+                Ok(Some(crate::cli::mtbf::report_json(
+                    &design.analysis.mtbf,
+                    true,
+                )))
             }
             other => Err(RpcError::invalid_params(format!("unknown command {other}"))),
         }

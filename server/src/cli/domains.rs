@@ -2,12 +2,9 @@
 
 use std::path::PathBuf;
 use std::process::ExitCode;
-use std::time::Duration;
 
 use clap::{Args, ValueEnum};
 use serde_json::json;
-
-use crate::{project, worker};
 
 #[derive(Clone, Copy, ValueEnum)]
 pub enum DomainsFormat {
@@ -26,21 +23,10 @@ pub struct DomainsArgs {
 }
 
 pub fn run(a: DomainsArgs) -> ExitCode {
-    let proj = match project::load(&a.paths, a.config.as_deref()) {
-        Ok(p) => p,
-        Err(e) => return super::usage_error(e.0),
+    let an = match super::load_and_analyze(&a.paths, a.config.as_deref()) {
+        Ok(x) => x,
+        Err(code) => return code,
     };
-    let jobs = std::thread::available_parallelism()
-        .map(|n| n.get())
-        .unwrap_or(2);
-    let models = worker::parse_all(
-        &proj.jobs,
-        proj.macros.clone(),
-        &proj.options,
-        Duration::from_secs(60),
-        jobs,
-    );
-    let an = seam_analysis::analyze(&models, &proj.config);
     let edge = |e: seam_analysis::model::Edge| match e {
         seam_analysis::model::Edge::Posedge => "posedge",
         seam_analysis::model::Edge::Negedge => "negedge",

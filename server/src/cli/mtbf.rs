@@ -4,7 +4,6 @@
 
 use std::path::PathBuf;
 use std::process::ExitCode;
-use std::time::Duration;
 
 use clap::{Args, ValueEnum};
 use seam_analysis::mtbf::{
@@ -12,8 +11,6 @@ use seam_analysis::mtbf::{
 };
 use seam_analysis::report::{MtbfReport, SyncEstimate, SyncMtbf};
 use serde_json::{json, Value};
-
-use crate::{project, worker};
 
 #[derive(Clone, Copy, ValueEnum)]
 pub enum MtbfFormat {
@@ -281,21 +278,10 @@ pub fn human(r: &MtbfReport, solve: bool) -> String {
 }
 
 pub fn run(a: MtbfArgs) -> ExitCode {
-    let proj = match project::load(&a.paths, a.config.as_deref()) {
-        Ok(p) => p,
-        Err(e) => return super::usage_error(e.0),
+    let an = match super::load_and_analyze(&a.paths, a.config.as_deref()) {
+        Ok(x) => x,
+        Err(code) => return code,
     };
-    let jobs = std::thread::available_parallelism()
-        .map(|n| n.get())
-        .unwrap_or(2);
-    let models = worker::parse_all(
-        &proj.jobs,
-        proj.macros.clone(),
-        &proj.options,
-        Duration::from_secs(60),
-        jobs,
-    );
-    let an = seam_analysis::analyze(&models, &proj.config);
     match a.format {
         MtbfFormat::Json => println!(
             "{}",

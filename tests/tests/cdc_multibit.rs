@@ -396,6 +396,7 @@ fn evaluator_agrees_with_simulation() {
             var: x,
             x: xv,
             inline: true,
+            frame: None,
         };
         let got = ev.eval(&e, exprs[i as usize].1, 0);
         assert_eq!(got, Some(want), "{} at x = {xv}", exprs[i as usize].0);

@@ -11,7 +11,9 @@ use crate::design::netlist::SigId;
 use crate::design::Ctx;
 use crate::model::{Expr, Select};
 
-fn mask(w: u32) -> u64 {
+pub use super::funcall::Frame;
+
+pub(super) fn mask(w: u32) -> u64 {
     if w >= 64 {
         u64::MAX
     } else {
@@ -32,6 +34,8 @@ pub struct Eval<'c, 'a> {
     pub x: u64,
     /// Combinational nets to inline (by their unguarded drivers); the variable stops it.
     pub inline: bool,
+    /// The variables of the function being run (`%name` keys), if any.
+    pub frame: Option<&'c Frame>,
 }
 
 impl<'c, 'a> Eval<'c, 'a> {
@@ -43,8 +47,13 @@ impl<'c, 'a> Eval<'c, 'a> {
     /// Self-determined width (IEEE 1800-2017 Table 11-21).
     pub fn selfw(&self, e: &Expr) -> Option<u32> {
         Some(match e {
+            Expr::Ident { name, .. } if name.starts_with('%') => self.frame?.get(name)?.1,
             Expr::Ident { .. } => self.sig_width(self.ctx.g.sig(e)?)?,
-            Expr::Select { .. } => self.ctx.g.width_of(e)?,
+            Expr::Select { sel, .. } => match self.ctx.g.width_of(e) {
+                Some(w) => w,
+                // bounds that depend on a loop variable of a function
+                None => self.select_range(sel, 40)?.1,
+            },
             Expr::Const { width, text, .. } => {
                 if text.starts_with('\'')
                     && !text.contains(['b', 'h', 'd', 'o', 'B', 'H', 'D', 'O'])
@@ -79,6 +88,9 @@ impl<'c, 'a> Eval<'c, 'a> {
                 }
                 c.checked_mul(w)?
             }
+            Expr::Call { name, .. } if self.ctx.n.funcs.contains_key(name) => {
+                self.ctx.n.funcs[name].ret.width
+            }
             Expr::Call { name, args } if args.len() == 1 => match cast_width(name) {
                 Some(w) => w,
                 None if name == "unsigned'" || name == "signed'" => self.selfw(&args[0])?,
@@ -97,31 +109,27 @@ impl<'c, 'a> Eval<'c, 'a> {
         let m = mask(w);
         let d = depth + 1;
         let v = match e {
+            Expr::Ident { name, .. } if name.starts_with('%') => self.frame?.get(name)?.0,
             Expr::Ident { .. } => {
                 let s = self.ctx.g.sig(e)?;
                 self.signal(s, d)?
             }
             Expr::Select { base, sel } => {
-                let s = self.ctx.g.sig(base)?;
-                if !matches!(**base, Expr::Ident { .. }) || self.ctx.n.sigs[s].memory {
-                    return None;
-                }
-                let v = self.signal(s, d)?;
-                let lsb = self.ctx.n.sigs[s].lsb;
-                let (lo, width) = match sel.as_ref() {
-                    Select::Bit { index } => (const_of(index)?, 1),
-                    Select::Part { msb, lsb } => {
-                        let (a, b) = (const_of(msb)?, const_of(lsb)?);
-                        (a.min(b), (a - b).unsigned_abs() as u32 + 1)
+                let (v, lsb) = match &**base {
+                    Expr::Ident { name, .. } if name.starts_with('%') => {
+                        let (v, _, lsb, _) = self.frame?.get(name)?;
+                        (v, lsb)
                     }
-                    Select::Up { base, width } => {
-                        (const_of(base)?, u32::try_from(const_of(width)?).ok()?)
+                    Expr::Ident { .. } => {
+                        let s = self.ctx.g.sig(base)?;
+                        if self.ctx.n.sigs[s].memory {
+                            return None;
+                        }
+                        (self.signal(s, d)?, self.ctx.n.sigs[s].lsb)
                     }
-                    Select::Down { base, width } => {
-                        let wd = const_of(width)?;
-                        (const_of(base)? - wd + 1, u32::try_from(wd).ok()?)
-                    }
+                    _ => return None,
                 };
+                let (lo, width) = self.select_range(sel, d)?;
                 let sh = u32::try_from(lo - lsb).ok()?;
                 if sh >= 64 {
                     0
@@ -172,7 +180,14 @@ impl<'c, 'a> Eval<'c, 'a> {
                 }
                 "==" | "!=" | "===" | "!==" | "<" | "<=" | ">" | ">=" => {
                     let cw = self.selfw(lhs)?.max(self.selfw(rhs)?);
-                    let (a, b) = (self.eval(lhs, cw, d)?, self.eval(rhs, cw, d)?);
+                    let (mut a, mut b) = (self.eval(lhs, cw, d)?, self.eval(rhs, cw, d)?);
+                    if self.signed(lhs) && self.signed(rhs) {
+                        // IEEE 1800-2017 11.8.1: signed only when both operands are;
+                        // offsetting by the sign bit orders two's complement values
+                        let flip = 1u64 << (cw.min(64) - 1);
+                        a ^= flip;
+                        b ^= flip;
+                    }
                     u64::from(match op.as_str() {
                         "==" | "===" => a == b,
                         "!=" | "!==" => a != b,
@@ -206,6 +221,9 @@ impl<'c, 'a> Eval<'c, 'a> {
                 }
                 acc
             }
+            Expr::Call { name, args } if self.ctx.n.funcs.contains_key(name) => {
+                self.call(&self.ctx.n.funcs[name], args, d)?
+            }
             Expr::Call { name, args } if args.len() == 1 => {
                 let cw = self.selfw(e)?;
                 let aw = self.selfw(&args[0])?.max(cw);
@@ -214,6 +232,59 @@ impl<'c, 'a> Eval<'c, 'a> {
             _ => return None,
         };
         Some(v & m)
+    }
+
+    /// `(lowest index, width)` of a select; bounds are constants, or (in a function body)
+    /// expressions of its variables.
+    pub(super) fn select_range(&self, sel: &Select, d: u32) -> Option<(i64, u32)> {
+        Some(match sel {
+            Select::Bit { index } => (self.index(index, d)?, 1),
+            Select::Part { msb, lsb } => {
+                let (a, b) = (self.index(msb, d)?, self.index(lsb, d)?);
+                (a.min(b), u32::try_from((a - b).unsigned_abs() + 1).ok()?)
+            }
+            Select::Up { base, width } => (
+                self.index(base, d)?,
+                u32::try_from(self.index(width, d)?).ok()?,
+            ),
+            Select::Down { base, width } => {
+                let wd = self.index(width, d)?;
+                (self.index(base, d)? - wd + 1, u32::try_from(wd).ok()?)
+            }
+        })
+    }
+
+    /// An index value: a constant, or any expression that evaluates (a loop variable).
+    fn index(&self, e: &Expr, d: u32) -> Option<i64> {
+        if let Some(c) = const_of(e) {
+            return Some(c);
+        }
+        let w = self.selfw(e)?;
+        let v = self.eval(e, w, d)?;
+        Some(if self.signed(e) && w < 64 && v >> (w - 1) & 1 == 1 {
+            (v | !mask(w)) as i64
+        } else {
+            v as i64
+        })
+    }
+
+    /// Signedness of an expression (IEEE 1800-2017 11.8.1): unsized decimal literals and
+    /// integer-atom variables are signed; an operation is signed when all its operands are.
+    pub(super) fn signed(&self, e: &Expr) -> bool {
+        match e {
+            Expr::Ident { name, .. } if name.starts_with('%') => {
+                self.frame.and_then(|f| f.get(name)).is_some_and(|s| s.3)
+            }
+            Expr::Const { text, .. } => {
+                text.bytes().all(|c| c.is_ascii_digit() || c == b'_') || text.contains("'s")
+            }
+            Expr::Unary { op, arg } if matches!(op.as_str(), "-" | "+" | "~") => self.signed(arg),
+            Expr::Binary { op, lhs, rhs } if matches!(op.as_str(), "+" | "-" | "*" | "&" | "|" | "^") => {
+                self.signed(lhs) && self.signed(rhs)
+            }
+            Expr::Ternary { then, other, .. } => self.signed(then) && self.signed(other),
+            _ => false,
+        }
     }
 
     fn self_eval(&self, e: &Expr, d: u32) -> Option<u64> {

@@ -3,6 +3,7 @@
 
 pub mod bitval;
 pub mod crossings;
+mod funcall;
 pub mod mtbf_table;
 pub mod resets;
 pub mod rules;

@@ -499,6 +499,12 @@ fn counter(ctx: &Ctx, r: SigId) -> Option<Step> {
     any.then_some(acc)
 }
 
+/// For the gray-code quick fix: `None` when `r` is not a counter, else whether it steps up,
+/// steps down, and the constants it is loaded with outside its reset branch.
+pub(crate) fn counter_moves(ctx: &Ctx, r: SigId) -> Option<(bool, bool, Vec<u64>)> {
+    counter(ctx, r).map(|s| (s.inc, s.dec, s.consts))
+}
+
 /// Guards under which `r` moves (its non-hold, non-reset assignments).
 fn move_keys(ctx: &Ctx, r: SigId) -> BTreeSet<String> {
     reg_assigns(ctx, r)
@@ -615,6 +621,7 @@ pub fn gray_of(ctx: &Ctx, g: SigId) -> Option<Gray> {
             var: v,
             x,
             inline: true,
+            frame: None,
         };
         let mut out = 0u64;
         for (b, (a, off)) in per_bit.iter().enumerate() {

@@ -63,6 +63,25 @@ pub struct Comb {
     pub port: bool,
 }
 
+/// A variable of an elaborated function: its frame key (`%name`), width and numbering.
+#[derive(Clone, Debug)]
+pub struct FVar {
+    pub key: String,
+    pub width: u32,
+    pub lsb: i64,
+    pub signed: bool,
+}
+
+/// A function elaborated in one scope: widths evaluated, parameters folded, names of
+/// arguments and locals marked `%name`, other names resolved to signals.
+#[derive(Clone, Debug)]
+pub struct FFunc {
+    pub ret: FVar,
+    pub args: Vec<FVar>,
+    pub locals: Vec<FVar>,
+    pub body: Vec<Stmt>,
+}
+
 #[derive(Default, Debug)]
 pub struct Netlist {
     pub insts: Vec<Inst>,
@@ -75,6 +94,8 @@ pub struct Netlist {
     /// Connections to instances of undefined modules: (instance, port name, parent signal).
     pub blackbox_pins: Vec<(usize, String, SigId)>,
     pub unresolved: Vec<(String, Span)>,
+    /// Functions by their scoped name (`top.u.g.name`); resolved calls carry that name.
+    pub funcs: HashMap<String, FFunc>,
 }
 
 pub struct ModuleIndex<'m> {
@@ -364,6 +385,7 @@ fn declare(n: &mut Netlist, inst: usize, items: &[Item], scope: &mut Scope) {
                     }
                 }
             }
+            ItemKind::Function(f) => declare_function(n, inst, f, scope),
             ItemKind::GenerateFor(g) => {
                 unroll(g, scope, |mut s| declare(n, inst, &g.items, &mut s))
             }
@@ -375,6 +397,142 @@ fn declare(n: &mut Netlist, inst: usize, items: &[Item], scope: &mut Scope) {
             }
             _ => {}
         }
+    }
+}
+
+/// Elaborate a function under `scope`; one whose types are not all plain vectors or integer
+/// atoms, or that has outputs, is left out (its calls stay opaque).
+fn declare_function(n: &mut Netlist, inst: usize, f: &Function, scope: &Scope) {
+    if f.has_outputs {
+        return;
+    }
+    let var = |v: &FuncVar| -> Option<FVar> {
+        if v.other_type {
+            return None;
+        }
+        let (width, lsb) = match v.atom {
+            Some(w) if v.packed.is_empty() => (w, 0),
+            Some(_) => return None,
+            None => (eval::width(&v.packed, &scope.env)?, eval::lsb(&v.packed, &scope.env)),
+        };
+        (width <= 64).then(|| FVar {
+            key: format!("%{}", v.name),
+            width,
+            lsb,
+            // integer atoms are signed (IEEE 1800-2017 6.11; `time`, rare here, is not)
+            signed: v.atom.is_some(),
+        })
+    };
+    let (Some(ret), Some(args), Some(locals)) = (
+        var(&f.ret),
+        f.args.iter().map(var).collect::<Option<Vec<_>>>(),
+        f.locals.iter().map(var).collect::<Option<Vec<_>>>(),
+    ) else {
+        return;
+    };
+    let names: HashSet<&str> = std::iter::once(f.name.as_str())
+        .chain(f.args.iter().map(|v| v.name.as_str()))
+        .chain(f.locals.iter().map(|v| v.name.as_str()))
+        .collect();
+    let body = f
+        .body
+        .iter()
+        .map(|s| resolve_stmt(n, inst, s, scope, &names))
+        .collect();
+    let key = format!("{}{}", scope.prefixes[0], f.name);
+    n.funcs.insert(
+        key,
+        FFunc {
+            ret,
+            args,
+            locals,
+            body,
+        },
+    );
+}
+
+fn resolve_stmt(n: &mut Netlist, inst: usize, s: &Stmt, scope: &Scope, names: &HashSet<&str>) -> Stmt {
+    let ex = |e: &Expr, n: &mut Netlist| {
+        let mut e = e.clone();
+        mark_locals(&mut e, names);
+        resolve_in_place(n, inst, &mut e, scope, &[], false);
+        e
+    };
+    let all = |v: &[Stmt], n: &mut Netlist| -> Vec<Stmt> {
+        v.iter().map(|s| resolve_stmt(n, inst, s, scope, names)).collect()
+    };
+    match s {
+        Stmt::Assign { target, rhs } => Stmt::Assign {
+            target: ex(target, n),
+            rhs: ex(rhs, n),
+        },
+        Stmt::If { cond, then, other } => Stmt::If {
+            cond: ex(cond, n),
+            then: all(then, n),
+            other: all(other, n),
+        },
+        Stmt::Case { sel, items, default } => Stmt::Case {
+            sel: ex(sel, n),
+            items: items
+                .iter()
+                .map(|(ls, b)| (ls.iter().map(|l| ex(l, n)).collect(), all(b, n)))
+                .collect(),
+            default: all(default, n),
+        },
+        Stmt::For {
+            init,
+            cond,
+            step,
+            body,
+        } => Stmt::For {
+            init: all(init, n),
+            cond: ex(cond, n),
+            step: all(step, n),
+            body: all(body, n),
+        },
+        Stmt::Return { value } => Stmt::Return {
+            value: value.as_ref().map(|v| ex(v, n)),
+        },
+        Stmt::Unsupported { what } => Stmt::Unsupported { what: what.clone() },
+    }
+}
+
+/// Names of a function's own variables become `%name` (frame keys, never signals).
+fn mark_locals(e: &mut Expr, names: &HashSet<&str>) {
+    match e {
+        Expr::Ident { name, .. } if names.contains(name.as_str()) => *name = format!("%{name}"),
+        Expr::Ident { .. } | Expr::Const { .. } => {}
+        Expr::Select { base, sel } => {
+            mark_locals(base, names);
+            match sel.as_mut() {
+                Select::Bit { index } => mark_locals(index, names),
+                Select::Part { msb, lsb } => {
+                    mark_locals(msb, names);
+                    mark_locals(lsb, names);
+                }
+                Select::Up { base, width } | Select::Down { base, width } => {
+                    mark_locals(base, names);
+                    mark_locals(width, names);
+                }
+            }
+        }
+        Expr::Unary { arg, .. } => mark_locals(arg, names),
+        Expr::Binary { lhs, rhs, .. } => {
+            mark_locals(lhs, names);
+            mark_locals(rhs, names);
+        }
+        Expr::Ternary { cond, then, other } => {
+            mark_locals(cond, names);
+            mark_locals(then, names);
+            mark_locals(other, names);
+        }
+        Expr::Concat { parts } => parts.iter_mut().for_each(|p| mark_locals(p, names)),
+        Expr::Repl { count, parts } => {
+            mark_locals(count, names);
+            parts.iter_mut().for_each(|p| mark_locals(p, names));
+        }
+        Expr::Call { args, .. } => args.iter_mut().for_each(|p| mark_locals(p, names)),
+        Expr::Opaque { reads, .. } => reads.iter_mut().for_each(|p| mark_locals(p, names)),
     }
 }
 
@@ -401,6 +559,7 @@ fn resolve_in_place(
     implicit: bool,
 ) {
     match e {
+        Expr::Ident { name, .. } if name.starts_with('%') => {} // a function's own variable
         Expr::Ident { name, loc } => {
             if let Some(v) = scope.env.get(name.as_str()) {
                 let t = v.to_string();
@@ -480,9 +639,19 @@ fn resolve_in_place(
                 .iter_mut()
                 .for_each(|p| resolve_in_place(n, inst, p, scope, locals, false));
         }
-        Expr::Call { args, .. } => args
-            .iter_mut()
-            .for_each(|p| resolve_in_place(n, inst, p, scope, locals, false)),
+        Expr::Call { name, args } => {
+            args.iter_mut()
+                .for_each(|p| resolve_in_place(n, inst, p, scope, locals, false));
+            // a function of this scope (innermost first): the call carries its scoped name
+            if let Some(key) = scope
+                .prefixes
+                .iter()
+                .map(|p| format!("{p}{name}"))
+                .find(|k| n.funcs.contains_key(k))
+            {
+                *name = key;
+            }
+        }
         Expr::Opaque { reads, .. } => reads
             .iter_mut()
             .for_each(|p| resolve_in_place(n, inst, p, scope, locals, false)),

@@ -138,6 +138,9 @@ pub fn names_in(m: &Module) -> BTreeSet<String> {
                 }
             }
             ItemKind::GenerateIf(g) => out.extend(g.labels.iter().flatten().cloned()),
+            ItemKind::Function(f) => {
+                out.insert(f.name.clone());
+            }
             ItemKind::Ignored { .. } => {}
         }
     }

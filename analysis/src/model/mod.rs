@@ -150,6 +150,9 @@ pub enum ItemKind {
     Instance(Instance),
     GenerateFor(GenerateFor),
     GenerateIf(GenerateIf),
+    /// A function declared in the module: its body is executed where a value is needed
+    /// (gray-code checks), calls stay calls elsewhere.
+    Function(Function),
     /// Constructs that do not count for domains (initial, assertions, final, clocking).
     Ignored {
         what: String,
@@ -284,6 +287,58 @@ pub struct GenerateIf {
     /// `(condition, items)`; a final `None` condition is the else branch.
     pub branches: Vec<(Option<Expr>, Vec<Item>)>,
     pub labels: Vec<Option<String>>,
+}
+
+/// A variable of a function: an argument, a local, or the return value (named as the
+/// function).
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct FuncVar {
+    pub name: String,
+    pub packed: Vec<Range>,
+    /// Width of an integer atom type (`int` 32, `byte` 8...); signed when it is one.
+    pub atom: Option<u32>,
+    /// A type that is neither a vector nor an integer atom (struct, enum, typedef).
+    pub other_type: bool,
+}
+
+/// `function ... endfunction`, with its body as statements in order.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct Function {
+    pub name: String,
+    pub ret: FuncVar,
+    /// Input arguments in order (a function with other directions is kept, but not run).
+    pub args: Vec<FuncVar>,
+    pub locals: Vec<FuncVar>,
+    pub body: Vec<Stmt>,
+    /// Set when an argument is not an input.
+    pub has_outputs: bool,
+}
+
+/// A statement of a function body.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(tag = "stmt", rename_all = "snake_case")]
+pub enum Stmt {
+    /// A blocking assignment (`x op= y` is kept as `x = x op y`).
+    Assign { target: Expr, rhs: Expr },
+    If {
+        cond: Expr,
+        then: Vec<Stmt>,
+        other: Vec<Stmt>,
+    },
+    Case {
+        sel: Expr,
+        items: Vec<(Vec<Expr>, Vec<Stmt>)>,
+        default: Vec<Stmt>,
+    },
+    For {
+        init: Vec<Stmt>,
+        cond: Expr,
+        step: Vec<Stmt>,
+        body: Vec<Stmt>,
+    },
+    Return { value: Option<Expr> },
+    /// Anything else: executing it gives up.
+    Unsupported { what: String },
 }
 
 impl Module {

@@ -9,6 +9,8 @@ use sv_parser::{
     NodeEvent, RefNode, RefNodes, Statement, StatementItem, StatementOrNull, SyntaxTree,
 };
 
+mod function;
+
 use super::position::LineIndex;
 use crate::model::expr::{opaque, parse_expr};
 use crate::model::*;
@@ -857,9 +859,14 @@ impl<'a> Extractor<'a> {
                 self.ignored(out, c, "property")
             }
             RefNode::CovergroupDeclaration(_) => self.ignored(out, c, "covergroup"),
-            RefNode::FunctionDeclaration(_) | RefNode::TaskDeclaration(_) => {
-                self.ignored(out, c, "subroutine")
-            }
+            RefNode::FunctionDeclaration(_) => match self.function(c.clone()) {
+                Some(f) => {
+                    self.push(out, c, ItemKind::Function(f));
+                    Walk::Skip
+                }
+                None => self.ignored(out, c, "subroutine"),
+            },
+            RefNode::TaskDeclaration(_) => self.ignored(out, c, "subroutine"),
             RefNode::ElaborationSystemTask(_) => self.ignored(out, c, "elaboration task"),
             RefNode::ModuleDeclarationAnsi(_) | RefNode::ModuleDeclarationNonansi(_) => {
                 self.ignored(out, c, "nested module")
@@ -1243,23 +1250,7 @@ impl<'a> Extractor<'a> {
                 _ => {}
             },
             StatementItem::IncOrDecExpression(b) => {
-                // x++ / ++x
-                let node = RefNode::from(&b.0);
-                let text = self.str(node.clone());
-                let name = text.trim_matches(|c| c == '+' || c == '-' || c == ' ');
-                let op = if text.contains("++") { "+" } else { "-" };
-                let base = self.range(node).map(|r| r.0).unwrap_or(0);
-                let off = text.find(name).unwrap_or(0);
-                let target = self.expr_text(name, base + off);
-                let rhs = Expr::Binary {
-                    op: op.into(),
-                    lhs: Box::new(target.clone()),
-                    rhs: Box::new(Expr::Const {
-                        text: "1".into(),
-                        value: Some(1),
-                        width: None,
-                    }),
-                };
+                let (target, rhs) = self.inc_dec(RefNode::from(&b.0));
                 out.push(Assignment {
                     target,
                     rhs,
@@ -1295,6 +1286,26 @@ impl<'a> Extractor<'a> {
             }
             _ => {}
         }
+    }
+
+    /// `x++` / `++x` / `x--` as (target, `x + 1` or `x - 1`).
+    fn inc_dec(&self, node: RefNode<'a>) -> (Expr, Expr) {
+        let text = self.str(node.clone());
+        let name = text.trim_matches(|c| c == '+' || c == '-' || c == ' ');
+        let op = if text.contains("++") { "+" } else { "-" };
+        let base = self.range(node).map(|r| r.0).unwrap_or(0);
+        let off = text.find(name).unwrap_or(0);
+        let target = self.expr_text(name, base + off);
+        let rhs = Expr::Binary {
+            op: op.into(),
+            lhs: Box::new(target.clone()),
+            rhs: Box::new(Expr::Const {
+                text: "1".into(),
+                value: Some(1),
+                width: None,
+            }),
+        };
+        (target, rhs)
     }
 
     fn assignment(

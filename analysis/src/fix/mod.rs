@@ -8,6 +8,7 @@
 //! edits without rerunning the analysis. Every RTL fix changes latency or timing; its title
 //! says how.
 
+pub mod add_stage;
 pub mod enable_strobe;
 pub mod plan;
 pub mod synchronizer;
@@ -35,7 +36,7 @@ pub struct Fix {
     pub rule: String,
     /// The main fix of the finding (the editor may apply it with one key).
     pub preferred: bool,
-    /// `waive` or the fix kind (`synchronizer`, `enable-strobe`).
+    /// `waive` or the fix kind (`synchronizer`, `enable-strobe`, `add-stage`).
     pub kind: String,
     /// What the fix rewrites (`file::module` for RTL fixes, `file:line` for waivers): two
     /// fixes of one scope are never applied in one pass, as the second was planned on the
@@ -50,6 +51,7 @@ pub struct Fix {
 pub enum FixHint {
     Synchronizer(synchronizer::SyncHint),
     EnableStrobe(enable_strobe::StrobeHint),
+    AddStage(add_stage::StageHint),
     /// No RTL fix is offered; the reason is shown to the user.
     Unavailable {
         reason: String,
@@ -77,6 +79,7 @@ pub fn fixes_for<'m>(f: &Finding, files: &ModelOf<'m>, text_of: &TextOf) -> Vec<
     let rtl = match &f.fix {
         Some(FixHint::Synchronizer(h)) => synchronizer::fix(f, h, files, text_of).ok(),
         Some(FixHint::EnableStrobe(h)) => enable_strobe::fix(f, h, files, text_of).ok(),
+        Some(FixHint::AddStage(h)) => add_stage::fix(f, h, files, text_of).ok(),
         _ => None,
     };
     let has_rtl = rtl.is_some();
@@ -99,6 +102,7 @@ pub fn unavailable_reason<'m>(
         Some(FixHint::Unavailable { reason }) => Some(reason.clone()),
         Some(FixHint::Synchronizer(h)) => synchronizer::fix(f, h, files, text_of).err(),
         Some(FixHint::EnableStrobe(h)) => enable_strobe::fix(f, h, files, text_of).err(),
+        Some(FixHint::AddStage(h)) => add_stage::fix(f, h, files, text_of).err(),
         None => None,
     }
 }

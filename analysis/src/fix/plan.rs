@@ -4,11 +4,12 @@
 
 use std::collections::HashSet;
 
+use super::add_stage::StageHint;
 use super::enable_strobe::StrobeHint;
 use super::synchronizer::SyncHint;
 use super::FixHint;
 use crate::cdc::crossings::{Bit, Crossings, DIn, Dest};
-use crate::cdc::rules::{derived_clock, pulse_loss, unsynchronized_crossing};
+use crate::cdc::rules::{derived_clock, low_mtbf, pulse_loss, unsynchronized_crossing};
 use crate::cdc::short;
 use crate::design::graph::{const_of, targets, BitSrc};
 use crate::design::netlist::SigId;
@@ -22,6 +23,7 @@ pub fn annotate(ctx: &Ctx, cx: &Crossings, findings: &mut [Finding]) {
         .filter(|f| f.rule == unsynchronized_crossing::ID)
         .map(|f| (f.span.file.clone(), f.span.start))
         .collect();
+    let mut mtbf: Option<crate::report::MtbfReport> = None;
     for f in findings.iter_mut() {
         if f.fix.is_some() {
             continue;
@@ -34,6 +36,13 @@ pub fn annotate(ctx: &Ctx, cx: &Crossings, findings: &mut [Finding]) {
         } else if f.rule == derived_clock::ID {
             f.fix = Some(match strobe_hint(ctx, f) {
                 Ok(h) => FixHint::EnableStrobe(h),
+                Err(reason) => FixHint::Unavailable { reason },
+            });
+        } else if f.rule == low_mtbf::ID {
+            // the table is rebuilt only when a low-mtbf finding needs it
+            let table = mtbf.get_or_insert_with(|| crate::cdc::mtbf_table::compute(ctx, cx));
+            f.fix = Some(match stage_hint(ctx, table, f) {
+                Ok(h) => FixHint::AddStage(h),
                 Err(reason) => FixHint::Unavailable { reason },
             });
         }
@@ -397,5 +406,185 @@ fn sync_hint(
             None
         },
         stages: ctx.config.synchronizers.min_stages.max(2),
+    })
+}
+
+/// Fleet MTBF (log10 s) of one bit through `n` stages on the chain's clock, as the table
+/// models it (the new stage is on the last stage's clock and edge, one full period on).
+fn stage_fleet_log10(
+    params: &crate::mtbf::MtbfParams,
+    s: &crate::report::SyncMtbf,
+    n: u32,
+) -> Option<f64> {
+    use crate::mtbf::{crossing_log10_seconds, synchronizer_mtbf, MtbfResult, SyncInput};
+    let f_clk = s.dest_clock_hz?;
+    let input = SyncInput {
+        stages: n,
+        dest_clock_hz: f_clk,
+        f_data_hz: s.f_data_hz?,
+        stage_time_s: crate::cdc::mtbf_table::stage_time_s(
+            1.0 / f_clk,
+            n.saturating_sub(1),
+            s.half_period_steps,
+        ),
+        bits: 1,
+    };
+    match synchronizer_mtbf(params, &input).ok()? {
+        MtbfResult::Seconds { log10_s, .. } => crossing_log10_seconds(log10_s, 1, params.units),
+        MtbfResult::Infinite => Some(f64::INFINITY),
+        MtbfResult::NoSettlingSlack => None,
+    }
+}
+
+/// Add a stage (`low-mtbf`): the finding's chain must be one bit, every stage a plain
+/// one-bit register of one module instance this file holds (not a trusted synchronizer or
+/// cell), in top-level processes; the last stage loads only the stage before it.
+fn stage_hint(
+    ctx: &Ctx,
+    r: &crate::report::MtbfReport,
+    f: &Finding,
+) -> Result<StageHint, String> {
+    use crate::mtbf::{format_years, MtbfParams, DEFAULT_MAX_STAGES, SECONDS_PER_YEAR};
+    use crate::report::SyncEstimate;
+    let s = r
+        .synchronizers
+        .iter()
+        .find(|s| s.span == f.span && f.signal.as_deref() == Some(s.source.as_str()))
+        .ok_or("the synchronizer was not found again")?;
+    let target_log10 = r.target_years.log10() + SECONDS_PER_YEAR.log10();
+    match &s.estimate {
+        SyncEstimate::Figure { fleet_log10_s, .. } if *fleet_log10_s < target_log10 => {}
+        SyncEstimate::Figure { .. } => {
+            return Err("this chain meets the target on its own; the design total misses it: lengthen the weakest chains or lower their rates by hand (`seam mtbf --solve` lists them)".into())
+        }
+        SyncEstimate::NoSettlingSlack { .. } => {
+            return Err("no settling slack: a stage step leaves no time to resolve, so another stage on this clock adds none (a slower destination clock would)".into())
+        }
+        _ => return Err("the synchronizer has no MTBF figure".into()),
+    }
+    if s.bits != 1 {
+        return Err(format!(
+            "a {}-bit crossing: its chains are not lengthened automatically",
+            s.bits
+        ));
+    }
+    if s.stages >= DEFAULT_MAX_STAGES {
+        return Err(format!(
+            "the chain has {} stages already: more stages are not added automatically",
+            s.stages
+        ));
+    }
+    let mut regs: Vec<SigId> = Vec::new();
+    for name in &s.stage_registers {
+        let g = ctx
+            .n
+            .by_name
+            .get(name)
+            .copied()
+            .ok_or("a stage register was not found again")?;
+        regs.push(g);
+    }
+    // a trusted synchronizer or a cell is edited by choosing another one, not by Seam
+    for &g in &regs {
+        let Some(i) = crate::cdc::trusted_instance(ctx, g) else {
+            continue;
+        };
+        let inst = &ctx.n.insts[i];
+        let path = inst.path.split_once('.').map_or(inst.path.as_str(), |p| p.1);
+        return Err(match &inst.cell {
+            Some(crate::config::Cell::Synchronizer { stages, .. }) => format!(
+                "the chain is the synchronizer cell `{path}` (`{}`, {stages} stages): Seam does not edit cells; choose a longer cell from your library (or raise its stage parameter) and give its `stages` in [cells]",
+                inst.module
+            ),
+            _ => format!(
+                "the chain is inside the trusted synchronizer `{path}` (module `{}`): Seam does not edit trusted synchronizers; raise its stage parameter or choose a longer synchronizer",
+                inst.module
+            ),
+        });
+    }
+    if let Some(&v) = regs
+        .iter()
+        .find(|g| ctx.n.sigs[**g].width != Some(1) || ctx.n.sigs[**g].memory)
+    {
+        return Err(format!(
+            "the stages are bits of the vector `{}`: not lengthened automatically",
+            ctx.n.sigs[v].local
+        ));
+    }
+    let (Some(&last), true) = (regs.last(), regs.len() as u32 == s.stages) else {
+        return Err("the chain was not found again".into());
+    };
+    let inst = ctx.n.sigs[last].inst;
+    if regs.iter().any(|g| ctx.n.sigs[*g].inst != inst) {
+        return Err("the stages are in different modules: not lengthened automatically".into());
+    }
+    let (fi, mi) = ctx.n.insts[inst]
+        .def
+        .ok_or("the chain's module has no definition")?;
+    let m = &ctx.files[fi].modules[mi];
+    for &g in &regs {
+        let p = &ctx.n.procs[*ctx.g.reg_proc.get(&g).ok_or("a stage has no process")?];
+        if p.file != fi {
+            return Err("a stage's process comes from another file (an include?)".into());
+        }
+        let top = m.items.iter().any(|it| {
+            matches!(&it.kind, crate::model::ItemKind::Process(q) if q.span.start == p.span.start)
+        });
+        if !top {
+            return Err(format!(
+                "stage `{}` sits inside a generate block: not lengthened automatically",
+                ctx.n.sigs[g].local
+            ));
+        }
+    }
+    let local = ctx.n.sigs[last].local.clone();
+    if !local.chars().all(|c| c.is_ascii_alphanumeric() || c == '_') {
+        return Err(format!("`{local}` is not a plain name of the module"));
+    }
+    if ctx.n.sigs[last].port.is_some() || m.ports.iter().any(|p| p.name == local) {
+        return Err(format!(
+            "the last stage `{local}` is a port of `{}`: its readers are outside the module (add the stage by hand where it is read)",
+            m.name
+        ));
+    }
+    let mut loads = 0;
+    for a in assigns_of(ctx, last) {
+        if !a.guards.is_empty() {
+            return Err(format!(
+                "the last stage `{local}` has a synchronous reset or an enable: not lengthened automatically"
+            ));
+        }
+        loads += 1;
+    }
+    if loads == 0 {
+        return Err(format!("the last stage `{local}` is not loaded"));
+    }
+    let pi = ctx.g.reg_proc[&last];
+    let reset_value = if ctx.n.procs[pi].async_controls.is_empty() {
+        None
+    } else {
+        Some(
+            reset_value(ctx, (last, 0))
+                .ok_or(format!("the reset value of `{local}` is not a constant"))?,
+        )
+    };
+    let params = MtbfParams::from(&ctx.config.mtbf);
+    let next = s.stages + 1;
+    let after = stage_fleet_log10(&params, s, next)
+        .ok_or("the model gives no figure for one more stage")?;
+    let needed = (next..=DEFAULT_MAX_STAGES).find(|n| {
+        stage_fleet_log10(&params, s, *n).is_some_and(|l| l >= target_log10)
+    });
+    Ok(StageHint {
+        file: ctx.files[fi].path.clone(),
+        module: m.name.clone(),
+        last: local,
+        last_proc: ctx.n.procs[pi].span.start,
+        reset_value,
+        stages: s.stages,
+        source: s.source.clone(),
+        after: format_years(after),
+        target_years: r.target_years,
+        needed,
     })
 }

@@ -11,7 +11,7 @@ use tower_lsp::lsp_types::{Hover, HoverContents, MarkupContent, MarkupKind, Posi
 
 use super::convert::{span_range, TextView};
 use super::documents::{self, Encoding};
-use super::state::{DesignSnap, FileSnap};
+use super::state::{DesignSnap, FileSnap, Shared};
 
 pub const FOOTER: &str = "Seam's findings are structural and advisory.";
 pub const FIGURES: &str = "Frequencies come from the project settings; MTBF figures are estimates from a published \
@@ -252,12 +252,69 @@ fn local_lines(m: &Module, name: &str) -> Option<Vec<String>> {
     Some(out)
 }
 
+/// The text of each design file whose buffer still matches the model the analysis used (a
+/// fix's offsets are only right on that text), by display path.
+pub fn design_texts<'a>(
+    sh: &'a Shared,
+    design: &'a DesignSnap,
+) -> impl Fn(&str) -> Option<String> + 'a {
+    move |p: &str| {
+        let (u, d) = design
+            .files
+            .iter()
+            .find(|(_, d)| d.display == p && !d.stale)?;
+        let s = sh.file(u)?;
+        (!documents::edited_since(&s.edits, d.good_seq)).then(|| s.text.to_string())
+    }
+}
+
+/// `No automatic fix: <reason>` for each finding under the cursor that has no RTL fix.
+fn no_fix_lines(
+    design: &DesignSnap,
+    display: &str,
+    view: &TextView,
+    seq: u64,
+    pos: Position,
+    enc: Encoding,
+    texts: &seam_analysis::fix::TextOf,
+) -> Vec<String> {
+    use seam_analysis::fix;
+    let models: std::collections::HashMap<&str, &seam_analysis::model::FileModel> = design
+        .files
+        .values()
+        .map(|d| (d.display.as_str(), &*d.model))
+        .collect();
+    let model_of = |p: &str| models.get(p).copied();
+    let mut out = Vec::new();
+    for f in &design.analysis.findings {
+        if f.waived || f.rule == "syntax-error" || f.span.file != display {
+            continue;
+        }
+        let r = span_range(Some(view), seq, &f.span, enc);
+        if !(r.start <= pos && pos <= r.end) {
+            continue;
+        }
+        let fixes = fix::fixes_for(f, &model_of, texts);
+        if fixes.iter().any(|x| x.kind != "waive") {
+            continue;
+        }
+        if let Some(why) = fix::unavailable_reason(f, &model_of, texts) {
+            let line = format!("No automatic fix: {why}");
+            if !out.contains(&line) {
+                out.push(line);
+            }
+        }
+    }
+    out
+}
+
 pub fn hover(
     design: &DesignSnap,
     key: &Url,
     file: &FileSnap,
     pos: Position,
     enc: Encoding,
+    texts: &seam_analysis::fix::TextOf,
 ) -> Option<Hover> {
     let ch = documents::position_to_char(&file.text, pos, enc);
     let (ws, we) = documents::word_at(&file.text, ch)?;
@@ -310,12 +367,25 @@ pub fn hover(
             groups.entry(lines).or_default().push(s.instance.clone());
         }
     }
+    // findings under the cursor without an RTL fix say why (the buffer must match the model)
+    let no_fix = if documents::edited_since(&file.edits, df.good_seq) {
+        Vec::new()
+    } else {
+        no_fix_lines(design, &df.display, &view, df.good_seq, pos, enc, texts)
+    };
     let mut md = String::new();
     if groups.is_empty() {
-        let lines = local_lines(module, &name)?;
-        md.push_str(&format!("**`{name}`** in module `{}`\n\n", module.name));
-        for l in lines {
-            md.push_str(&format!("- {l}\n"));
+        match local_lines(module, &name) {
+            Some(lines) => {
+                md.push_str(&format!("**`{name}`** in module `{}`\n\n", module.name));
+                for l in lines {
+                    md.push_str(&format!("- {l}\n"));
+                }
+            }
+            None if !no_fix.is_empty() => {
+                md.push_str(&format!("**`{name}`** in module `{}`\n", module.name))
+            }
+            None => return None,
         }
     } else {
         md.push_str(&format!(
@@ -346,6 +416,12 @@ pub fn hover(
             if several {
                 md.push('\n');
             }
+        }
+    }
+    if !no_fix.is_empty() {
+        md.push('\n');
+        for l in &no_fix {
+            md.push_str(&format!("{l}\n\n"));
         }
     }
     if df.stale {

@@ -320,13 +320,16 @@ impl LanguageServer for Backend {
         let (Some(file), design) = (sh.file(&key), sh.design()) else {
             return Ok(None);
         };
-        Ok(hover::hover(
+        let texts = hover::design_texts(&sh, &design);
+        let card = hover::hover(
             &design,
             &key,
             &file,
             p.text_document_position_params.position,
             sh.encoding,
-        ))
+            &texts,
+        );
+        Ok(card)
     }
 
     async fn inlay_hint(&self, p: InlayHintParams) -> RpcResult<Option<Vec<InlayHint>>> {

@@ -1,0 +1,420 @@
+//! Add one synchronizer stage (`low-mtbf`).
+//!
+//! In the module that holds the chain: one new one-bit register (`logic` in SystemVerilog
+//! files, `reg` in Verilog files) on the last stage's clock and edge, with its asynchronous
+//! reset and reset value, loading the old last stage; every other read of the old last stage
+//! in the module then reads the new one. The chain gives stage 1 one more destination period
+//! to resolve, and every reader sees the value one destination-clock cycle later; the title
+//! says so, with what the MTBF model expects of the longer chain (an estimate).
+
+use serde::{Deserialize, Serialize};
+
+use super::text::{indent_at, indent_unit, line_end_incl, line_start, names_in, newline, word_in};
+use super::{Fix, ModelOf, TextEdit, TextOf};
+use crate::finding::Finding;
+use crate::model::{render, Edge, Expr, ItemKind, Language, Module, Process, ProcessKind};
+
+/// What the design layer found for the chain (see `fix::plan`).
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct StageHint {
+    /// Display path of the chain's file.
+    pub file: String,
+    pub module: String,
+    /// The old last stage as the module names it.
+    pub last: String,
+    /// `span.start` of its process (clock, edge and reset of the new stage).
+    pub last_proc: usize,
+    /// Its constant reset value, when it has an asynchronous reset.
+    pub reset_value: Option<bool>,
+    /// Stages now.
+    pub stages: u32,
+    /// The synchronized signal, for the comment.
+    pub source: String,
+    /// Estimated MTBF with one more stage (fleet), as printed.
+    pub after: String,
+    pub target_years: f64,
+    /// Fewest stages that meet the target (up to 10), per the model.
+    pub needed: Option<u32>,
+}
+
+fn top_process(m: &Module, start: usize) -> Option<&Process> {
+    m.items.iter().find_map(|it| match &it.kind {
+        ItemKind::Process(p) if p.span.start == start => Some(p),
+        _ => None,
+    })
+}
+
+fn edge_kw(e: Edge) -> Option<&'static str> {
+    match e {
+        Edge::Posedge => Some("posedge"),
+        Edge::Negedge => Some("negedge"),
+        Edge::Any => None,
+    }
+}
+
+/// The new stage's name: the old one with its trailing number raised (`meta_s2` →
+/// `meta_s3`), else `<last>_stage<N+1>`; numbered on while the module or file uses it.
+fn stage_name(last: &str, next: u32, m: &Module, text: &str) -> String {
+    let taken = names_in(m);
+    let free = |c: &str| !taken.contains(c) && !word_in(text, c);
+    let digits = last.len() - last.trim_end_matches(|c: char| c.is_ascii_digit()).len();
+    if digits > 0 && digits < last.len() && digits <= 6 {
+        let (stem, num) = last.split_at(last.len() - digits);
+        if let Ok(k) = num.parse::<u32>() {
+            for i in 1..100 {
+                let c = format!("{stem}{}", k + i);
+                if free(&c) {
+                    return c;
+                }
+            }
+        }
+    }
+    for i in 0..1000u32 {
+        let c = format!("{last}_stage{}", next + i);
+        if free(&c) {
+            return c;
+        }
+    }
+    format!("{last}_seam_stage{next}")
+}
+
+/// Byte ranges of every whole-word `name` in `text[from..to]` outside comments and strings.
+fn occurrences(text: &str, from: usize, to: usize, name: &str) -> Vec<usize> {
+    let b = text.as_bytes();
+    let to = to.min(b.len());
+    let is_w = |c: u8| c.is_ascii_alphanumeric() || c == b'_' || c == b'$';
+    let mut out = Vec::new();
+    let mut i = from;
+    while i < to {
+        if b[i] == b'/' && b.get(i + 1) == Some(&b'/') {
+            while i < to && b[i] != b'\n' {
+                i += 1;
+            }
+        } else if b[i] == b'/' && b.get(i + 1) == Some(&b'*') {
+            i += 2;
+            while i < to && !(b[i] == b'*' && b.get(i + 1) == Some(&b'/')) {
+                i += 1;
+            }
+            i += 2;
+        } else if b[i] == b'"' {
+            i += 1;
+            while i < to && b[i] != b'"' {
+                i += if b[i] == b'\\' { 2 } else { 1 };
+            }
+            i += 1;
+        } else if is_w(b[i]) {
+            let s = i;
+            while i < to && is_w(b[i]) {
+                i += 1;
+            }
+            // a word right after `.` or `\` is a hierarchical part or escaped name, not ours
+            let prev = s.checked_sub(1).map(|p| b[p]);
+            if &text[s..i] == name && prev != Some(b'.') && prev != Some(b'\\') {
+                out.push(s);
+            }
+        } else {
+            i += 1;
+        }
+    }
+    out
+}
+
+/// Where `e` reads `name` (identifier starts and ends).
+fn reads_in(e: &Expr, name: &str, out: &mut Vec<(usize, usize)>) {
+    for id in e.idents() {
+        if let Expr::Ident { name: n, loc } = id {
+            if n == name {
+                out.push((loc.start as usize, loc.end as usize));
+            }
+        }
+    }
+}
+
+/// Where a target expression writes `name` (the written names, not index reads).
+fn writes_in(e: &Expr, name: &str, out: &mut Vec<usize>) {
+    match e {
+        Expr::Ident { name: n, loc } if n == name => out.push(loc.start as usize),
+        Expr::Select { base, .. } => writes_in(base, name, out),
+        Expr::Concat { parts } => parts.iter().for_each(|p| writes_in(p, name, out)),
+        _ => {}
+    }
+}
+
+/// Index reads inside a target (`mem[last] <= ...`).
+fn target_reads(e: &Expr, name: &str, out: &mut Vec<(usize, usize)>) {
+    match e {
+        Expr::Select { base, sel } => {
+            target_reads(base, name, out);
+            match sel.as_ref() {
+                crate::model::Select::Bit { index } => reads_in(index, name, out),
+                crate::model::Select::Part { msb, lsb } => {
+                    reads_in(msb, name, out);
+                    reads_in(lsb, name, out)
+                }
+                crate::model::Select::Up { base, width }
+                | crate::model::Select::Down { base, width } => {
+                    reads_in(base, name, out);
+                    reads_in(width, name, out)
+                }
+            }
+        }
+        Expr::Concat { parts } => parts.iter().for_each(|p| target_reads(p, name, out)),
+        _ => {}
+    }
+}
+
+/// The edits, or why the fix cannot be made on this text.
+pub fn fix<'m>(
+    f: &Finding,
+    h: &StageHint,
+    files: &ModelOf<'m>,
+    text_of: &TextOf,
+) -> Result<Fix, String> {
+    let model = files(&h.file).ok_or("the chain's file is not in the design")?;
+    let text = text_of(&h.file).ok_or("the chain's file cannot be read")?;
+    let m = model
+        .modules
+        .iter()
+        .find(|m| m.name == h.module)
+        .ok_or("the chain's module is gone")?;
+    let lp = top_process(m, h.last_proc)
+        .ok_or("the last stage's process sits inside a generate block (not rewritten)")?;
+    let clock = lp
+        .clock
+        .as_ref()
+        .ok_or("the last stage's process has no clock")?;
+    let edge = edge_kw(clock.edge).ok_or("the last stage's process has no clock edge")?;
+    let clk = render(&clock.signal);
+    if !matches!(clock.signal, Expr::Ident { .. }) {
+        return Err(format!("the clock `{clk}` is not a plain name"));
+    }
+    let reset = match lp.async_controls.as_slice() {
+        [] => None,
+        [c] => {
+            let sig = render(&c.signal);
+            if !matches!(c.signal, Expr::Ident { .. }) {
+                return Err(format!("the reset `{sig}` is not a plain name"));
+            }
+            let ev = lp
+                .events
+                .iter()
+                .find(|e| render(&e.signal) == sig)
+                .ok_or("the reset is not in the event list")?;
+            let ev_edge = edge_kw(ev.edge).ok_or("the reset has no edge")?;
+            Some((sig, c.active_high, ev_edge))
+        }
+        _ => return Err("the last stage has several asynchronous controls".into()),
+    };
+    if reset.is_some() && h.reset_value.is_none() {
+        return Err("the last stage's reset value is not known".into());
+    }
+    let name = h.last.as_str();
+
+    // every use of the old last stage in the module: reads are redirected, writes and its
+    // declaration stay; a use the model does not show (a macro, an `initial` block, a
+    // generate block, a function) stops the fix rather than be missed
+    let mut reads: Vec<(usize, usize)> = Vec::new();
+    let mut writes: Vec<usize> = Vec::new();
+    let mut decl_spans: Vec<(usize, usize)> = Vec::new();
+    for it in &m.items {
+        match &it.kind {
+            ItemKind::Process(p) => {
+                if p.events.iter().any(|e| e.signal.reads().contains(&name)) {
+                    return Err(format!(
+                        "`{name}` is in an event list (a clock or a reset): not rewritten"
+                    ));
+                }
+                for a in &p.assigns {
+                    reads_in(&a.rhs, name, &mut reads);
+                    for g in &a.guards {
+                        reads_in(&g.cond, name, &mut reads);
+                    }
+                    writes_in(&a.target, name, &mut writes);
+                    target_reads(&a.target, name, &mut reads);
+                }
+            }
+            ItemKind::Assign(a) => {
+                reads_in(&a.rhs, name, &mut reads);
+                target_reads(&a.target, name, &mut reads);
+            }
+            ItemKind::Instance(i) => {
+                for c in i.connections.iter().chain(i.params.iter()) {
+                    if let Some(e) = &c.expr {
+                        reads_in(e, name, &mut reads);
+                    }
+                }
+            }
+            ItemKind::Decl(d) => {
+                if d.name == name {
+                    decl_spans.push((d.span.start, d.span.end));
+                    decl_spans.push((it.span.start, it.span.end));
+                }
+                if let Some(e) = &d.init {
+                    reads_in(e, name, &mut reads);
+                }
+            }
+            _ => {}
+        }
+    }
+    reads.sort();
+    reads.dedup();
+    for &(s, e) in &reads {
+        if text.get(s..e) != Some(name) {
+            return Err(format!("`{name}` is read inside a macro"));
+        }
+    }
+    if reads.is_empty() {
+        return Err(format!("`{name}` is not read in `{}`", m.name));
+    }
+    let decl = decl_spans
+        .iter()
+        .copied()
+        .min()
+        .ok_or(format!("`{name}` is not declared in the module body"))?;
+    for at in occurrences(&text, m.span.start, m.span.end, name) {
+        let known = reads.iter().any(|r| r.0 == at)
+            || writes.contains(&at)
+            || decl_spans.iter().any(|(s, e)| *s <= at && at < *e);
+        if !known {
+            let line = text[..at].matches('\n').count() + 1;
+            return Err(format!(
+                "`{name}` is used on line {line} where the fix cannot follow it (a macro, a generate block, an initial block or a function)"
+            ));
+        }
+    }
+
+    let nl = newline(&text);
+    let u = indent_unit(&text);
+    let sv = model.language == Language::SystemVerilog;
+    let next = h.stages + 1;
+    let new = stage_name(name, next, m, &text);
+
+    // the declaration goes on the line after the old one's (it precedes every read)
+    let decl_end = decl_spans
+        .iter()
+        .map(|x| x.1)
+        .max()
+        .unwrap_or(decl.1)
+        .min(text.len());
+    let after_decl = line_end_incl(&text, decl_end.saturating_sub(1).max(decl.0));
+    let rest = text.get(decl_end..after_decl).unwrap_or("");
+    let code = rest.split("//").next().unwrap_or("").trim();
+    let ends_here =
+        code.ends_with(';') || (code.is_empty() && text[..decl_end].trim_end().ends_with(';'));
+    if !ends_here || rest.contains("/*") {
+        return Err(format!("the declaration of `{name}` does not end its line"));
+    }
+    let dind = indent_at(&text, decl.0);
+    let decl_text = if text[..after_decl].ends_with(['\n', '\r']) {
+        format!("{dind}{} {new};{nl}", if sv { "logic" } else { "reg" })
+    } else {
+        format!("{nl}{dind}{} {new};", if sv { "logic" } else { "reg" })
+    };
+
+    // the process goes on the line after the last stage's process
+    let pend = lp.span.end.min(text.len());
+    let after_proc = line_end_incl(&text, pend.saturating_sub(1).max(lp.span.start));
+    let rest = text.get(pend..after_proc).unwrap_or("");
+    if !(rest.trim().is_empty() || rest.trim_start().starts_with("//")) {
+        return Err("the last stage's process does not end its line".into());
+    }
+    if !text
+        .get(line_start(&text, lp.span.start)..lp.span.start)
+        .is_some_and(|s| s.trim().is_empty())
+    {
+        return Err("the last stage's process does not start its line".into());
+    }
+    let ind = indent_at(&text, lp.span.start);
+    let kw = if sv && lp.kind == ProcessKind::AlwaysFf {
+        "always_ff"
+    } else {
+        "always"
+    };
+    let events = match &reset {
+        Some((sig, _, e)) => format!("{edge} {clk} or {e} {sig}"),
+        None => format!("{edge} {clk}"),
+    };
+    let mut b = String::new();
+    if !text[..after_proc].ends_with(['\n', '\r']) {
+        b.push_str(nl);
+    }
+    b.push_str(nl);
+    b.push_str(&format!(
+        "{ind}// stage {next} of the `{}` synchronizer (quick fix: +1 `{clk}` cycle of latency){nl}",
+        h.source
+    ));
+    b.push_str(&format!("{ind}{kw} @({events}) begin{nl}"));
+    match &reset {
+        Some((sig, high, _)) => {
+            let v = if h.reset_value == Some(true) {
+                "1'b1"
+            } else {
+                "1'b0"
+            };
+            let cond = if *high {
+                sig.clone()
+            } else {
+                format!("!{sig}")
+            };
+            b.push_str(&format!("{ind}{u}if ({cond}) {new} <= {v};{nl}"));
+            b.push_str(&format!("{ind}{u}else {new} <= {name};{nl}"));
+        }
+        None => b.push_str(&format!("{ind}{u}{new} <= {name};{nl}")),
+    }
+    b.push_str(&format!("{ind}end{nl}"));
+    // keep a blank line between the new process and the item after it
+    let next_line = text[after_proc..].lines().next().unwrap_or("");
+    if !next_line.trim().is_empty() && !next_line.trim_start().starts_with("endmodule") {
+        b.push_str(nl);
+    }
+
+    let mut edits = vec![
+        TextEdit {
+            file: h.file.clone(),
+            start: after_decl,
+            end: after_decl,
+            text: decl_text,
+        },
+        TextEdit {
+            file: h.file.clone(),
+            start: after_proc,
+            end: after_proc,
+            text: b,
+        },
+    ];
+    for (s, e) in reads {
+        edits.push(TextEdit {
+            file: h.file.clone(),
+            start: s,
+            end: e,
+            text: new.clone(),
+        });
+    }
+    let outlook = if h.needed.is_some_and(|k| k <= next) {
+        format!(
+            "estimated MTBF {} with {next} stages, target {} years",
+            h.after, h.target_years
+        )
+    } else {
+        match h.needed {
+            Some(k) => format!(
+                "estimated MTBF {} with {next} stages, still below the target of {} years: {k} stages would meet it",
+                h.after, h.target_years
+            ),
+            None => format!(
+                "estimated MTBF {} with {next} stages, still below the target of {} years: no stage count up to 10 meets it",
+                h.after, h.target_years
+            ),
+        }
+    };
+    Ok(Fix {
+        title: format!(
+            "Add one synchronizer stage after `{name}` (+1 `{clk}` cycle of latency; {outlook})"
+        ),
+        rule: f.rule.clone(),
+        preferred: true,
+        kind: "add-stage".into(),
+        scope: format!("{}::{}", h.file, h.module),
+        edits,
+    })
+}

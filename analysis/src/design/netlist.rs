@@ -642,6 +642,14 @@ fn resolve_in_place(
         Expr::Call { name, args } => {
             args.iter_mut()
                 .for_each(|p| resolve_in_place(n, inst, p, scope, locals, false));
+            // a cast to a parameter width, `W'(x)` or `(W-1)'(x)`, gets the number
+            if let Some(t) = name.strip_suffix('\'') {
+                if t.parse::<u32>().is_err() {
+                    if let Some(w) = eval::eval(&parse_expr(t), &scope.env) {
+                        *name = format!("{w}'");
+                    }
+                }
+            }
             // a function of this scope (innermost first): the call carries its scoped name
             if let Some(key) = scope
                 .prefixes

@@ -700,7 +700,21 @@ impl<'s> Parser<'s> {
                     },
                 })
             }
-            Tok::Op("(") => self.paren(),
+            Tok::Op("(") => {
+                let e = self.paren()?;
+                if self.peek_op() == Some("'")
+                    && matches!(self.toks.get(self.pos + 1), Some((Tok::Op("("), _)))
+                {
+                    // cast to a width given by an expression: (W-1)'(x)
+                    self.pos += 1;
+                    let inner = self.paren()?;
+                    return Some(Expr::Call {
+                        name: format!("({})'", render(&e)),
+                        args: vec![inner],
+                    });
+                }
+                Some(e)
+            }
             Tok::Op("{") => {
                 self.pos += 1;
                 if self.eat("}") {

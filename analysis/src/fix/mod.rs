@@ -10,7 +10,9 @@
 
 pub mod add_stage;
 pub mod enable_strobe;
+pub mod parent_sync;
 pub mod plan;
+pub mod pulse_sync;
 pub mod synchronizer;
 pub mod text;
 pub mod waive;
@@ -51,6 +53,8 @@ pub struct Fix {
 pub enum FixHint {
     Synchronizer(synchronizer::SyncHint),
     EnableStrobe(enable_strobe::StrobeHint),
+    PulseSync(pulse_sync::PulseHint),
+    ParentSync(parent_sync::ParentHint),
     AddStage(add_stage::StageHint),
     /// No RTL fix is offered; the reason is shown to the user.
     Unavailable {
@@ -79,6 +83,8 @@ pub fn fixes_for<'m>(f: &Finding, files: &ModelOf<'m>, text_of: &TextOf) -> Vec<
     let rtl = match &f.fix {
         Some(FixHint::Synchronizer(h)) => synchronizer::fix(f, h, files, text_of).ok(),
         Some(FixHint::EnableStrobe(h)) => enable_strobe::fix(f, h, files, text_of).ok(),
+        Some(FixHint::PulseSync(h)) => pulse_sync::fix(f, h, files, text_of).ok(),
+        Some(FixHint::ParentSync(h)) => parent_sync::fix(f, h, files, text_of).ok(),
         Some(FixHint::AddStage(h)) => add_stage::fix(f, h, files, text_of).ok(),
         _ => None,
     };
@@ -102,6 +108,8 @@ pub fn unavailable_reason<'m>(
         Some(FixHint::Unavailable { reason }) => Some(reason.clone()),
         Some(FixHint::Synchronizer(h)) => synchronizer::fix(f, h, files, text_of).err(),
         Some(FixHint::EnableStrobe(h)) => enable_strobe::fix(f, h, files, text_of).err(),
+        Some(FixHint::PulseSync(h)) => pulse_sync::fix(f, h, files, text_of).err(),
+        Some(FixHint::ParentSync(h)) => parent_sync::fix(f, h, files, text_of).err(),
         Some(FixHint::AddStage(h)) => add_stage::fix(f, h, files, text_of).err(),
         None => None,
     }

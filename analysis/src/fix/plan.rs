@@ -7,7 +7,7 @@ use std::collections::HashSet;
 use super::add_stage::StageHint;
 use super::enable_strobe::StrobeHint;
 use super::synchronizer::SyncHint;
-use super::FixHint;
+use super::{parent_sync, pulse_sync, FixHint};
 use crate::cdc::crossings::{Bit, Crossings, DIn, Dest};
 use crate::cdc::rules::{derived_clock, low_mtbf, pulse_loss, unsynchronized_crossing};
 use crate::cdc::short;
@@ -30,7 +30,7 @@ pub fn annotate(ctx: &Ctx, cx: &Crossings, findings: &mut [Finding]) {
         }
         if f.rule == unsynchronized_crossing::ID {
             f.fix = Some(match sync_hint(ctx, cx, f, &flagged) {
-                Ok(h) => FixHint::Synchronizer(h),
+                Ok(h) => h,
                 Err(reason) => FixHint::Unavailable { reason },
             });
         } else if f.rule == derived_clock::ID {
@@ -142,11 +142,11 @@ fn strobe_hint(ctx: &Ctx, f: &Finding) -> Result<StrobeHint, String> {
     })
 }
 
-fn is_flagged(d: &Dest, flagged: &HashSet<(String, usize)>) -> bool {
+pub(super) fn is_flagged(d: &Dest, flagged: &HashSet<(String, usize)>) -> bool {
     flagged.contains(&(d.read_span.file.clone(), d.read_span.start))
 }
 
-fn freq(ctx: &Ctx, s: SigId) -> Option<f64> {
+pub(super) fn freq(ctx: &Ctx, s: SigId) -> Option<f64> {
     let root = ctx.reg_clock.get(&s)?.root.as_ref()?;
     ctx.config.clocks.get(root)?.frequency_hz
 }
@@ -220,7 +220,7 @@ fn reads_of_leaf(ctx: &Ctx, e: &Expr, leaf: SigId, out: &mut Vec<Read>) {
 
 /// The one source register or input of a crossing, when every crossing bit of the
 /// destination is a single bit of it (a one-bit copy, or a one-bit enable of a wide register).
-fn single_leaf(d: &Dest) -> Option<SigId> {
+pub(super) fn single_leaf(d: &Dest) -> Option<SigId> {
     let mut leaf = None;
     for (_, din, _) in &d.bits {
         match din {
@@ -245,7 +245,7 @@ fn assigns_of<'c>(
 }
 
 /// The constant a register bit takes in its reset branch.
-fn reset_value(ctx: &Ctx, (s, b): Bit) -> Option<bool> {
+pub(super) fn reset_value(ctx: &Ctx, (s, b): Bit) -> Option<bool> {
     let pi = *ctx.g.reg_proc.get(&s)?;
     let mut v = None;
     for a in ctx.n.procs[pi].assigns.iter().filter(|a| a.in_reset) {
@@ -264,7 +264,7 @@ fn sync_hint(
     cx: &Crossings,
     f: &Finding,
     flagged: &HashSet<(String, usize)>,
-) -> Result<SyncHint, String> {
+) -> Result<FixHint, String> {
     let dest_name = f
         .related
         .iter()
@@ -335,15 +335,11 @@ fn sync_hint(
         return Err(format!("`{base}` is not a plain name of the module"));
     }
     // one-cycle pulses need a pulse synchronizer when they may be faster than the reader
+    let mut fast_pulse = false;
     if ctx.g.is_reg(leaf) && pulse_loss::is_pulse(ctx, leaf) {
         match (freq(ctx, leaf), freq(ctx, d.reg)) {
             (Some(fs), Some(fd)) if fs <= fd => {}
-            (Some(_), Some(_)) => {
-                return Err(format!(
-                    "`{}` is a one-cycle pulse from a faster domain: a level synchronizer can miss it (use a toggle synchronizer or a handshake)",
-                    short(ctx, leaf)
-                ))
-            }
+            (Some(_), Some(_)) => fast_pulse = true,
             _ => {
                 return Err(format!(
                     "`{}` is a one-cycle pulse and the clock frequencies are not given: a level synchronizer may miss it",
@@ -368,11 +364,20 @@ fn sync_hint(
                 .iter()
                 .any(|d2| d2.reg == r && is_flagged(d2, flagged) && single_leaf(d2).is_some())
         });
-        if !crosses {
+        if !crosses && fast_pulse {
             return Err(format!(
-                "instance `{}` of `{}` does not cross here: the synchronizer belongs at the port connection in the parent (not offered automatically)",
-                other.path, other.module
+                "`{}` is a one-cycle pulse from a faster domain and instance `{}` of `{}` does not cross here: no pulse synchronizer is inserted (a level chain at the port would miss pulses)",
+                short(ctx, leaf), other.path, other.module
             ));
+        }
+        if !crosses {
+            // the synchronizer belongs at this instance's port connection in the parent
+            return parent_sync::plan(ctx, cx, d, leaf, leaf_bit, &base, bit, flagged)
+                .map(FixHint::ParentSync)
+                .map_err(|why| format!(
+                    "instance `{}` of `{}` does not cross here, so the synchronizer belongs at the port connection in the parent, but {why}",
+                    other.path, other.module
+                ));
         }
     }
     // every flagged reader of the same bit on the same clock and edge in this instance
@@ -393,7 +398,7 @@ fn sync_hint(
             }
         }
     }
-    Ok(SyncHint {
+    let h = SyncHint {
         file: ctx.files[fi].path.clone(),
         module: ctx.files[fi].modules[mi].name.clone(),
         base,
@@ -406,7 +411,11 @@ fn sync_hint(
             None
         },
         stages: ctx.config.synchronizers.min_stages.max(2),
-    })
+    };
+    if fast_pulse {
+        return pulse_sync::plan(ctx, d, leaf, h).map(FixHint::PulseSync);
+    }
+    Ok(FixHint::Synchronizer(h))
 }
 
 /// Fleet MTBF (log10 s) of one bit through `n` stages on the chain's clock, as the table

@@ -36,7 +36,8 @@ pub struct SyncHint {
     pub stages: u32,
 }
 
-fn top_process(m: &crate::model::Module, start: usize) -> Option<&Process> {
+/// A process that is a direct item of the module (not inside a generate block).
+pub(super) fn top_process(m: &crate::model::Module, start: usize) -> Option<&Process> {
     m.items.iter().find_map(|it| match &it.kind {
         ItemKind::Process(p) if p.span.start == start => Some(p),
         _ => None,
@@ -59,37 +60,7 @@ pub fn fix<'m>(
         .ok_or("the destination module is gone")?;
     let dest = top_process(m, h.dest_proc)
         .ok_or("the destination process sits inside a generate block (not rewritten)")?;
-    let clock = dest
-        .clock
-        .as_ref()
-        .ok_or("the destination process has no clock")?;
-    let edge = match clock.edge {
-        Edge::Posedge => "posedge",
-        Edge::Negedge => "negedge",
-        Edge::Any => return Err("the destination process has no clock edge".into()),
-    };
-    let clk = render(&clock.signal);
-    if !matches!(clock.signal, Expr::Ident { .. }) {
-        return Err(format!("the destination clock `{clk}` is not a plain name"));
-    }
-    let reset = match dest.async_controls.as_slice() {
-        [] => None,
-        [c] => {
-            let sig = render(&c.signal);
-            let ev = dest
-                .events
-                .iter()
-                .find(|e| render(&e.signal) == sig)
-                .ok_or("the reset is not in the event list")?;
-            let ev_edge = match ev.edge {
-                Edge::Posedge => "posedge",
-                Edge::Negedge => "negedge",
-                Edge::Any => return Err("the reset has no edge".into()),
-            };
-            Some((sig, c.active_high, ev_edge))
-        }
-        _ => return Err("the destination flop has several asynchronous controls".into()),
-    };
+    let Clocking { edge, clk, reset } = clocking(dest, "destination")?;
     let mut procs: Vec<&Process> = Vec::new();
     for s in &h.procs {
         procs.push(
@@ -106,37 +77,7 @@ pub fn fix<'m>(
         Some(b) => format!("{}[{b}]", h.base),
         None => h.base.clone(),
     };
-    let mut ranges: BTreeSet<(usize, usize)> = BTreeSet::new();
-    for p in &procs {
-        for a in p.assigns.iter().filter(|a| !a.in_reset) {
-            let exprs = std::iter::once(&a.rhs).chain(a.guards.iter().map(|g| &g.cond));
-            for e in exprs {
-                for id in e.idents() {
-                    let Expr::Ident { name, loc } = id else {
-                        continue;
-                    };
-                    if name != &h.base {
-                        continue;
-                    }
-                    let (s, e) = (loc.start as usize, loc.end as usize);
-                    if text.get(s..e) != Some(h.base.as_str()) {
-                        return Err(format!("`{}` is read inside a macro", h.base));
-                    }
-                    let end = match h.bit {
-                        None => e,
-                        Some(b) => match bit_select_end(&text, e, b) {
-                            Some(end) => end,
-                            None => continue, // another bit of the vector
-                        },
-                    };
-                    ranges.insert((s, end));
-                }
-            }
-        }
-    }
-    if ranges.is_empty() {
-        return Err(format!("no read of `{read_text}` to replace"));
-    }
+    let ranges = read_ranges(&text, &procs, &h.base, h.bit)?;
 
     let at_proc = procs
         .iter()
@@ -154,11 +95,6 @@ pub fn fix<'m>(
     let u = indent_unit(&text);
     let nl = newline(&text);
     let sv = model.language == Language::SystemVerilog;
-    let kw = if sv && dest.kind == ProcessKind::AlwaysFf {
-        "always_ff"
-    } else {
-        "always"
-    };
     let mut b = String::new();
     b.push_str(&format!(
         "{ind}// {n}-flop synchronizer for `{read_text}` on `{clk}` (quick fix: {n} cycles of latency){nl}"
@@ -168,44 +104,24 @@ pub fn fix<'m>(
         if sv { "logic" } else { "reg" },
         names.join(", ")
     ));
-    let events = match &reset {
-        Some((sig, _, e)) => format!("{edge} {clk} or {e} {sig}"),
-        None => format!("{edge} {clk}"),
+    let shape = Shape {
+        ind: &ind,
+        unit: &u,
+        nl,
+        keyword: process_keyword(sv, dest.kind),
     };
-    b.push_str(&format!("{ind}{kw} @({events}) begin{nl}"));
-    let shifts = |b: &mut String, depth: &str| {
-        for (k, nm) in names.iter().enumerate() {
-            let from = if k == 0 {
-                read_text.as_str()
-            } else {
-                names[k - 1].as_str()
-            };
-            b.push_str(&format!("{depth}{nm} <= {from};{nl}"));
-        }
+    let clocking = Clocking {
+        edge,
+        clk: clk.clone(),
+        reset,
     };
-    match &reset {
-        Some((sig, high, _)) => {
-            let v = if h.reset_value == Some(true) {
-                "1'b1"
-            } else {
-                "1'b0"
-            };
-            let cond = if *high {
-                sig.clone()
-            } else {
-                format!("!{sig}")
-            };
-            b.push_str(&format!("{ind}{u}if ({cond}) begin{nl}"));
-            for nm in &names {
-                b.push_str(&format!("{ind}{u}{u}{nm} <= {v};{nl}"));
-            }
-            b.push_str(&format!("{ind}{u}end else begin{nl}"));
-            shifts(&mut b, &format!("{ind}{u}{u}"));
-            b.push_str(&format!("{ind}{u}end{nl}"));
-        }
-        None => shifts(&mut b, &format!("{ind}{u}")),
-    }
-    b.push_str(&format!("{ind}end{nl}"));
+    b.push_str(&shift_process(
+        &shape,
+        &clocking,
+        h.reset_value == Some(true),
+        &read_text,
+        &names,
+    ));
     b.push_str(nl);
 
     let mut edits = vec![TextEdit {
@@ -232,4 +148,163 @@ pub fn fix<'m>(
         scope: format!("{}::{}", h.file, h.module),
         edits,
     })
+}
+
+/// A process's clock edge and name, and its one asynchronous reset (signal, active high,
+/// event edge): what inserted stages copy so that they sit in the same domain.
+pub(super) struct Clocking {
+    pub edge: &'static str,
+    pub clk: String,
+    pub reset: Option<(String, bool, &'static str)>,
+}
+
+fn edge_word(e: Edge) -> Option<&'static str> {
+    match e {
+        Edge::Posedge => Some("posedge"),
+        Edge::Negedge => Some("negedge"),
+        Edge::Any => None,
+    }
+}
+
+/// The clocking of a process whose clock is a plain name; `what` names it in the reason.
+pub(super) fn clocking(p: &Process, what: &str) -> Result<Clocking, String> {
+    let clock = p
+        .clock
+        .as_ref()
+        .ok_or_else(|| format!("the {what} process has no clock"))?;
+    let edge =
+        edge_word(clock.edge).ok_or_else(|| format!("the {what} process has no clock edge"))?;
+    let clk = render(&clock.signal);
+    if !matches!(clock.signal, Expr::Ident { .. }) {
+        return Err(format!("the {what} clock `{clk}` is not a plain name"));
+    }
+    let reset = match p.async_controls.as_slice() {
+        [] => None,
+        [c] => {
+            let sig = render(&c.signal);
+            let ev = p
+                .events
+                .iter()
+                .find(|e| render(&e.signal) == sig)
+                .ok_or("the reset is not in the event list")?;
+            let ev_edge = edge_word(ev.edge).ok_or("the reset has no edge")?;
+            Some((sig, c.active_high, ev_edge))
+        }
+        _ => return Err(format!("the {what} flop has several asynchronous controls")),
+    };
+    Ok(Clocking { edge, clk, reset })
+}
+
+/// How inserted text is laid out: indentation, its unit, line break, process keyword.
+pub(super) struct Shape<'a> {
+    pub ind: &'a str,
+    pub unit: &'a str,
+    pub nl: &'a str,
+    pub keyword: &'static str,
+}
+
+/// `always_ff` in SystemVerilog files when the model process is one, else `always`.
+pub(super) fn process_keyword(sv: bool, kind: ProcessKind) -> &'static str {
+    if sv && kind == ProcessKind::AlwaysFf {
+        "always_ff"
+    } else {
+        "always"
+    }
+}
+
+/// One process shifting `from` through `names` on the clocking (reset to `reset_one` when
+/// it has a reset), ending with its `end` line.
+pub(super) fn shift_process(
+    s: &Shape,
+    c: &Clocking,
+    reset_one: bool,
+    from: &str,
+    names: &[String],
+) -> String {
+    let (ind, u, nl) = (s.ind, s.unit, s.nl);
+    let mut b = String::new();
+    let events = match &c.reset {
+        Some((sig, _, e)) => format!("{} {} or {e} {sig}", c.edge, c.clk),
+        None => format!("{} {}", c.edge, c.clk),
+    };
+    b.push_str(&format!("{ind}{} @({events}) begin{nl}", s.keyword));
+    let shifts = |b: &mut String, depth: &str| {
+        for (k, nm) in names.iter().enumerate() {
+            let src = if k == 0 { from } else { names[k - 1].as_str() };
+            b.push_str(&format!("{depth}{nm} <= {src};{nl}"));
+        }
+    };
+    match &c.reset {
+        Some((sig, high, _)) => {
+            let v = if reset_one { "1'b1" } else { "1'b0" };
+            b.push_str(&format!(
+                "{ind}{u}if ({}) begin{nl}",
+                reset_test(sig, *high)
+            ));
+            for nm in names {
+                b.push_str(&format!("{ind}{u}{u}{nm} <= {v};{nl}"));
+            }
+            b.push_str(&format!("{ind}{u}end else begin{nl}"));
+            shifts(&mut b, &format!("{ind}{u}{u}"));
+            b.push_str(&format!("{ind}{u}end{nl}"));
+        }
+        None => shifts(&mut b, &format!("{ind}{u}")),
+    }
+    b.push_str(&format!("{ind}end{nl}"));
+    b
+}
+
+/// The condition that is true while the reset is asserted.
+pub(super) fn reset_test(sig: &str, active_high: bool) -> String {
+    if active_high {
+        sig.to_string()
+    } else {
+        format!("!{sig}")
+    }
+}
+
+/// The byte ranges of every read of `base` (or `base[bit]`) in the processes' right-hand
+/// sides and conditions (reset branches excluded); refused when a read comes from a macro.
+pub(super) fn read_ranges(
+    text: &str,
+    procs: &[&Process],
+    base: &str,
+    bit: Option<i64>,
+) -> Result<BTreeSet<(usize, usize)>, String> {
+    let mut ranges: BTreeSet<(usize, usize)> = BTreeSet::new();
+    for p in procs {
+        for a in p.assigns.iter().filter(|a| !a.in_reset) {
+            let exprs = std::iter::once(&a.rhs).chain(a.guards.iter().map(|g| &g.cond));
+            for e in exprs {
+                for id in e.idents() {
+                    let Expr::Ident { name, loc } = id else {
+                        continue;
+                    };
+                    if name != base {
+                        continue;
+                    }
+                    let (s, e) = (loc.start as usize, loc.end as usize);
+                    if text.get(s..e) != Some(base) {
+                        return Err(format!("`{base}` is read inside a macro"));
+                    }
+                    let end = match bit {
+                        None => e,
+                        Some(b) => match bit_select_end(text, e, b) {
+                            Some(end) => end,
+                            None => continue, // another bit of the vector
+                        },
+                    };
+                    ranges.insert((s, end));
+                }
+            }
+        }
+    }
+    if ranges.is_empty() {
+        let read = match bit {
+            Some(b) => format!("{base}[{b}]"),
+            None => base.to_string(),
+        };
+        return Err(format!("no read of `{read}` to replace"));
+    }
+    Ok(ranges)
 }

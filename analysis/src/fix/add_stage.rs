@@ -263,9 +263,6 @@ pub fn fix<'m>(
             return Err(format!("`{name}` is read inside a macro"));
         }
     }
-    if reads.is_empty() {
-        return Err(format!("`{name}` is not read in `{}`", m.name));
-    }
     let decl = decl_spans
         .iter()
         .copied()
@@ -281,6 +278,9 @@ pub fn fix<'m>(
                 "`{name}` is used on line {line} where the fix cannot follow it (a macro, a generate block, an initial block or a function)"
             ));
         }
+    }
+    if reads.is_empty() {
+        return Err(format!("`{name}` is not read in `{}`", m.name));
     }
 
     let nl = newline(&text);
@@ -417,4 +417,127 @@ pub fn fix<'m>(
         scope: format!("{}::{}", h.file, h.module),
         edits,
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::finding::Severity;
+    use crate::model::{FileModel, Span};
+    use crate::parse::{parse_file, MacroTable, ParseOptions};
+
+    /// Parse `src` (sv-parser, through Seam's front end) and plan a stage after `s2`, whose
+    /// process is the one that loads it.
+    fn run(src: &str) -> Result<(Fix, String), String> {
+        let macros = MacroTable::with_defines([("SYNTHESIS", None)]);
+        let model: FileModel = parse_file(
+            "t.v",
+            "t.v",
+            src.as_bytes(),
+            &macros,
+            &ParseOptions::default(),
+        )
+        .model;
+        assert!(model.problems.is_empty(), "{:?}", model.problems);
+        let m = &model.modules[0];
+        let lp = m
+            .items
+            .iter()
+            .find_map(|it| match &it.kind {
+                ItemKind::Process(p)
+                    if p.assigns.iter().any(|a| a.target.base_name() == Some("s2")) =>
+                {
+                    Some(p.span.start)
+                }
+                _ => None,
+            })
+            .expect("the last stage's process");
+        let h = StageHint {
+            file: "t.v".into(),
+            module: m.name.clone(),
+            last: "s2".into(),
+            last_proc: lp,
+            reset_value: None,
+            stages: 2,
+            source: "d".into(),
+            after: "1.00e+20 years".into(),
+            target_years: 1000.0,
+            needed: Some(3),
+        };
+        let f = Finding::new("low-mtbf", Severity::Warning, Span::default(), "m");
+        let files = [model.clone()];
+        let of = super::super::in_slice(&files);
+        let text = src.to_string();
+        let text_of = move |p: &str| (p == "t.v").then(|| text.clone());
+        let fx = fix(&f, &h, &of, &text_of)?;
+        let edits: Vec<&TextEdit> = fx.edits.iter().collect();
+        let out = super::super::apply(src, &edits).expect("edits apply");
+        Ok((fx, out))
+    }
+
+    const HEAD: &str = "module t (input clk, input d, output reg [3:0] n);\n  reg s1, s2;\n  always @(posedge clk) begin\n    s1 <= d;\n    s2 <= s1;\n  end\n";
+
+    #[test]
+    fn readers_move_to_the_new_stage_and_the_title_says_the_cost() {
+        let src = format!("{HEAD}  always @(posedge clk) if (s2) n <= n + 4'd1;\nendmodule\n");
+        let (fx, out) = run(&src).unwrap();
+        assert!(out.contains("  reg s1, s2;\n  reg s3;\n"), "{out}");
+        assert!(out.contains("    s3 <= s2;\n"), "{out}");
+        assert!(out.contains("if (s3) n <= n + 4'd1;"), "{out}");
+        assert!(
+            fx.title.contains("+1 `clk` cycle of latency") && fx.title.contains("estimated"),
+            "{}",
+            fx.title
+        );
+        // the fixed text parses again, and the new stage is a process of the module
+        let again = parse_file(
+            "t.v",
+            "t.v",
+            out.as_bytes(),
+            &MacroTable::default(),
+            &ParseOptions::default(),
+        )
+        .model;
+        assert!(again.problems.is_empty(), "{:?}", again.problems);
+        assert_eq!(again.modules[0].processes().count(), 3);
+    }
+
+    #[test]
+    fn uses_the_model_cannot_follow_stop_the_fix() {
+        // an initial block, a comment and a string: only the initial block counts
+        let src = format!(
+            "{HEAD}  // s2 is the last stage\n  always @(posedge clk) if (s2) n <= n + 4'd1;\n  initial $display(\"s2 %b\", s2);\nendmodule\n"
+        );
+        let e = run(&src).unwrap_err();
+        assert!(e.contains("line 9"), "{e}");
+        // a read inside a generate block
+        let src = format!(
+            "{HEAD}  generate if (1) begin : g\n    always @(posedge clk) if (s2) n <= n + 4'd1;\n  end endgenerate\nendmodule\n"
+        );
+        assert!(run(&src).unwrap_err().contains("cannot follow"));
+        // the last stage used as a clock
+        let src = format!("{HEAD}  always @(posedge s2) n <= n + 4'd1;\nendmodule\n");
+        assert!(run(&src).unwrap_err().contains("event list"));
+    }
+
+    #[test]
+    fn names_and_words() {
+        let t = "a s2 b.s2 \\s2 // s2\n/* s2 */ \"s2\" s2x s2";
+        assert_eq!(occurrences(t, 0, t.len(), "s2"), vec![2, t.len() - 2]);
+        let src = format!("{HEAD}endmodule\n");
+        let macros = MacroTable::default();
+        let m = parse_file(
+            "t.v",
+            "t.v",
+            src.as_bytes(),
+            &macros,
+            &ParseOptions::default(),
+        )
+        .model;
+        let md = &m.modules[0];
+        assert_eq!(stage_name("s2", 3, md, &src), "s3");
+        assert_eq!(stage_name("s1", 3, md, &src), "s3"); // s2 is taken
+        assert_eq!(stage_name("q", 3, md, &src), "q_stage3");
+        assert_eq!(stage_name("q", 3, md, "wire q_stage3;"), "q_stage4");
+    }
 }

@@ -448,11 +448,7 @@ fn stage_fleet_log10(
 /// Add a stage (`low-mtbf`): the finding's chain must be one bit, every stage a plain
 /// one-bit register of one module instance this file holds (not a trusted synchronizer or
 /// cell), in top-level processes; the last stage loads only the stage before it.
-fn stage_hint(
-    ctx: &Ctx,
-    r: &crate::report::MtbfReport,
-    f: &Finding,
-) -> Result<StageHint, String> {
+fn stage_hint(ctx: &Ctx, r: &crate::report::MtbfReport, f: &Finding) -> Result<StageHint, String> {
     use crate::mtbf::{format_years, MtbfParams, DEFAULT_MAX_STAGES, SECONDS_PER_YEAR};
     use crate::report::SyncEstimate;
     let s = r
@@ -499,7 +495,10 @@ fn stage_hint(
             continue;
         };
         let inst = &ctx.n.insts[i];
-        let path = inst.path.split_once('.').map_or(inst.path.as_str(), |p| p.1);
+        let path = inst
+            .path
+            .split_once('.')
+            .map_or(inst.path.as_str(), |p| p.1);
         return Err(match &inst.cell {
             Some(crate::config::Cell::Synchronizer { stages, .. }) => format!(
                 "the chain is the synchronizer cell `{path}` (`{}`, {stages} stages): Seam does not edit cells; choose a longer cell from your library (or raise its stage parameter) and give its `stages` in [cells]",
@@ -581,9 +580,8 @@ fn stage_hint(
     let next = s.stages + 1;
     let after = stage_fleet_log10(&params, s, next)
         .ok_or("the model gives no figure for one more stage")?;
-    let needed = (next..=DEFAULT_MAX_STAGES).find(|n| {
-        stage_fleet_log10(&params, s, *n).is_some_and(|l| l >= target_log10)
-    });
+    let needed = (next..=DEFAULT_MAX_STAGES)
+        .find(|n| stage_fleet_log10(&params, s, *n).is_some_and(|l| l >= target_log10));
     Ok(StageHint {
         file: ctx.files[fi].path.clone(),
         module: m.name.clone(),

@@ -10,6 +10,7 @@
 
 pub mod add_stage;
 pub mod enable_strobe;
+pub mod gray_code;
 pub mod parent_sync;
 pub mod plan;
 pub mod pulse_sync;
@@ -55,6 +56,7 @@ pub enum FixHint {
     EnableStrobe(enable_strobe::StrobeHint),
     PulseSync(pulse_sync::PulseHint),
     ParentSync(parent_sync::ParentHint),
+    GrayCode(gray_code::GrayHint),
     AddStage(add_stage::StageHint),
     /// No RTL fix is offered; the reason is shown to the user.
     Unavailable {
@@ -85,6 +87,7 @@ pub fn fixes_for<'m>(f: &Finding, files: &ModelOf<'m>, text_of: &TextOf) -> Vec<
         Some(FixHint::EnableStrobe(h)) => enable_strobe::fix(f, h, files, text_of).ok(),
         Some(FixHint::PulseSync(h)) => pulse_sync::fix(f, h, files, text_of).ok(),
         Some(FixHint::ParentSync(h)) => parent_sync::fix(f, h, files, text_of).ok(),
+        Some(FixHint::GrayCode(h)) => gray_code::fix(f, h, files, text_of).ok(),
         Some(FixHint::AddStage(h)) => add_stage::fix(f, h, files, text_of).ok(),
         _ => None,
     };
@@ -110,6 +113,7 @@ pub fn unavailable_reason<'m>(
         Some(FixHint::EnableStrobe(h)) => enable_strobe::fix(f, h, files, text_of).err(),
         Some(FixHint::PulseSync(h)) => pulse_sync::fix(f, h, files, text_of).err(),
         Some(FixHint::ParentSync(h)) => parent_sync::fix(f, h, files, text_of).err(),
+        Some(FixHint::GrayCode(h)) => gray_code::fix(f, h, files, text_of).err(),
         Some(FixHint::AddStage(h)) => add_stage::fix(f, h, files, text_of).err(),
         None => None,
     }

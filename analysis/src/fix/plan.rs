@@ -6,10 +6,13 @@ use std::collections::HashSet;
 
 use super::add_stage::StageHint;
 use super::enable_strobe::StrobeHint;
+use super::gray_code;
 use super::synchronizer::SyncHint;
 use super::{parent_sync, pulse_sync, FixHint};
 use crate::cdc::crossings::{Bit, Crossings, DIn, Dest};
-use crate::cdc::rules::{derived_clock, low_mtbf, pulse_loss, unsynchronized_crossing};
+use crate::cdc::rules::{
+    derived_clock, low_mtbf, multibit_crossing, pulse_loss, unsynchronized_crossing,
+};
 use crate::cdc::short;
 use crate::design::graph::{const_of, targets, BitSrc};
 use crate::design::netlist::SigId;
@@ -31,6 +34,20 @@ pub fn annotate(ctx: &Ctx, cx: &Crossings, findings: &mut [Finding]) {
         if f.rule == unsynchronized_crossing::ID {
             f.fix = Some(match sync_hint(ctx, cx, f, &flagged) {
                 Ok(h) => h,
+                // a whole counter read raw: gray code instead of a synchronizer
+                Err(reason) if gray_code::whole_bus(ctx, cx, f) => {
+                    match gray_code::plan(ctx, cx, f) {
+                        Ok(h) => FixHint::GrayCode(h),
+                        Err(g) => FixHint::Unavailable {
+                            reason: format!("{reason}; no gray-code fix: {g}"),
+                        },
+                    }
+                }
+                Err(reason) => FixHint::Unavailable { reason },
+            });
+        } else if f.rule == multibit_crossing::ID {
+            f.fix = Some(match gray_code::plan(ctx, cx, f) {
+                Ok(h) => FixHint::GrayCode(h),
                 Err(reason) => FixHint::Unavailable { reason },
             });
         } else if f.rule == derived_clock::ID {
@@ -549,11 +566,22 @@ fn stage_hint(ctx: &Ctx, r: &crate::report::MtbfReport, f: &Finding) -> Result<S
     if !local.chars().all(|c| c.is_ascii_alphanumeric() || c == '_') {
         return Err(format!("`{local}` is not a plain name of the module"));
     }
+    // an output port keeps its name and place: the new stage goes in front of it instead
+    let mut before = None;
     if ctx.n.sigs[last].port.is_some() || m.ports.iter().any(|p| p.name == local) {
-        return Err(format!(
-            "the last stage `{local}` is a port of `{}`: its readers are outside the module (add the stage by hand where it is read)",
-            m.name
-        ));
+        let output = ctx.n.sigs[last].port == Some(crate::model::Direction::Output);
+        let prev = regs.len().checked_sub(2).map(|i| regs[i]);
+        match prev {
+            Some(p) if output && ctx.n.sigs[p].port.is_none() => {
+                before = Some(ctx.n.sigs[p].local.clone())
+            }
+            _ => {
+                return Err(format!(
+                    "the last stage `{local}` is a port of `{}` that is not an output after another stage: not lengthened automatically",
+                    m.name
+                ))
+            }
+        }
     }
     let mut loads = 0;
     for a in assigns_of(ctx, last) {
@@ -593,5 +621,6 @@ fn stage_hint(ctx: &Ctx, r: &crate::report::MtbfReport, f: &Finding) -> Result<S
         after: format_years(after),
         target_years: r.target_years,
         needed,
+        before,
     })
 }

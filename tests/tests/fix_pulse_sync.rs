@@ -368,6 +368,15 @@ endmodule
         assert_eq!(s.len(), pulses, "{}: source pulses", c.case);
         // exactly one destination pulse per source pulse (none lost, none extra)
         assert_eq!(dst.len(), s.len(), "{}: destination pulses", c.case);
+        let lats: Vec<f64> = s.iter().zip(&dst).map(|(a, b)| (b - a) / td).collect();
+        eprintln!(
+            "{}: {cyc} source cycles, {} source pulses, {} destination pulses, latency {:.2}..{:.2} destination cycles after the toggle",
+            c.case,
+            s.len(),
+            dst.len(),
+            lats.iter().cloned().fold(f64::MAX, f64::min),
+            lats.iter().cloned().fold(f64::MIN, f64::max)
+        );
         for (k, (ts_k, td_k)) in s.iter().zip(&dst).enumerate() {
             // one destination cycle long: the next sampling edge is low
             if k + 1 < dst.len() {

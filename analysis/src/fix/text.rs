@@ -4,15 +4,25 @@ use std::collections::BTreeSet;
 
 use crate::model::{Expr, ItemKind, Module};
 
+/// `off` clamped into the text and moved back to a character boundary (a stale offset from
+/// an older parse must not split a character).
+fn clamp(text: &str, off: usize) -> usize {
+    let mut off = off.min(text.len());
+    while !text.is_char_boundary(off) {
+        off -= 1;
+    }
+    off
+}
+
 /// Byte offset of the start of the line holding `off`.
 pub fn line_start(text: &str, off: usize) -> usize {
-    let off = off.min(text.len());
+    let off = clamp(text, off);
     text[..off].rfind(['\n', '\r']).map(|p| p + 1).unwrap_or(0)
 }
 
 /// Byte offset just past the end of the line holding `off` (its line break included).
 pub fn line_end_incl(text: &str, off: usize) -> usize {
-    let off = off.min(text.len());
+    let off = clamp(text, off);
     match text[off..].find(['\n', '\r']) {
         Some(p) => {
             let e = off + p;
@@ -271,5 +281,8 @@ mod tests {
         assert_eq!(bit_select_end(t, 8, 2), None);
         assert_eq!(ident_of("bus[3]"), "bus_3");
         assert_eq!(line_end_incl("a\r\nb", 0), 3);
+        // a stale offset inside a character is moved back, never split
+        assert_eq!(line_start("x\naé", 4), 2);
+        assert_eq!(line_end_incl("aé\nb", 2), 4);
     }
 }

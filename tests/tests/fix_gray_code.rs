@@ -574,3 +574,115 @@ fn no_gray_code_where_it_would_be_wrong() {
         assert!(line.contains(why), "{case}: reason `{why}` not in: {line}");
     }
 }
+
+// ------------------------------------------------------------------ through the editor
+
+fn actions_for(
+    c: &mut lsp_client::LspClient,
+    uri: &str,
+    d: &serde_json::Value,
+) -> Vec<serde_json::Value> {
+    let r = c.call(
+        "textDocument/codeAction",
+        serde_json::json!({ "textDocument": { "uri": uri }, "range": d["range"], "context": { "diagnostics": [d] } }),
+    );
+    r.as_array().cloned().unwrap_or_default()
+}
+
+/// The code action of a crossing diagnostic through `seam serve` (LSP 3.17 CodeAction, kind
+/// `quickfix`, preferred; WorkspaceEdit `documentChanges` with the document version): applied
+/// to the buffer it gives the same text as `seam check --fix`, the crossing diagnostics on the
+/// counter clear with no new one, and the action is no longer offered.
+#[test]
+fn the_code_action_carries_the_counter_as_gray_code() {
+    use lsp_client::{LspClient, Utf16Doc};
+    use serde_json::{json, Value};
+    for (case, file, rule) in [
+        ("g2_sv_chain_down", "gh_tank_left.sv", "multibit-crossing"),
+        ("g3_sv_readers", "gh_tray.sv", "unsynchronized-crossing"),
+    ] {
+        let d = copy_case(&fixtures().join("fix/gray").join(case));
+        let path = d.path().join(file);
+        let mut c = LspClient::start(
+            d.path(),
+            LspClient::default_capabilities(),
+            json!({ "testMode": true }),
+        );
+        let uri = c.open(&path, 1);
+        c.wait_analyzed(&uri, 1);
+        let before = c.diags(&uri);
+        let diag = before
+            .iter()
+            .find(|x| x["code"] == rule)
+            .unwrap_or_else(|| panic!("{case}: no {rule}: {before:?}"))
+            .clone();
+        let actions = actions_for(&mut c, &uri, &diag);
+        let gray = actions
+            .iter()
+            .find(|a| a["isPreferred"] == true)
+            .unwrap_or_else(|| panic!("{case}: no preferred action: {actions:?}"))
+            .clone();
+        assert_eq!(gray["kind"], "quickfix");
+        let title = gray["title"].as_str().unwrap();
+        assert!(
+            title.contains("as gray code") && title.contains("latency"),
+            "{case}: {title}"
+        );
+        let dcs = gray["edit"]["documentChanges"].as_array().unwrap();
+        assert_eq!(dcs.len(), 1, "{case}: one document edited");
+        assert_eq!(dcs[0]["textDocument"]["version"], 1);
+        let mut doc = Utf16Doc::new(&std::fs::read_to_string(&path).unwrap());
+        let mut es: Vec<&Value> = dcs[0]["edits"].as_array().unwrap().iter().collect();
+        let pos = |e: &Value, k: &str| {
+            (
+                e["range"][k]["line"].as_u64().unwrap() as usize,
+                e["range"][k]["character"].as_u64().unwrap() as usize,
+            )
+        };
+        es.sort_by_key(|e| std::cmp::Reverse(pos(e, "start")));
+        let changes: Vec<Value> = es
+            .into_iter()
+            .map(|e| {
+                let (sl, sc) = pos(e, "start");
+                let (el, ec) = pos(e, "end");
+                doc.edit(sl, sc, el, ec, e["newText"].as_str().unwrap())
+            })
+            .collect();
+        c.change(&uri, 2, Value::Array(changes));
+        c.wait_analyzed(&uri, 2);
+        let after = c.diags(&uri);
+        let crossing = |x: &&Value| {
+            x["code"] == "multibit-crossing"
+                || x["code"] == "unsynchronized-crossing"
+                || x["code"] == "syntax-error"
+        };
+        assert!(!after.iter().any(|x| crossing(&x)), "{case}: {after:?}");
+        let mut expect: Vec<String> = before
+            .iter()
+            .filter(|x| !crossing(x))
+            .map(|x| x["code"].to_string())
+            .collect();
+        let mut got: Vec<String> = after.iter().map(|x| x["code"].to_string()).collect();
+        expect.sort();
+        got.sort();
+        assert_eq!(got, expect, "{case}: no new diagnostic");
+        // the batch checker makes the same edit (the reference)
+        let other = copy_case(&fixtures().join("fix/gray").join(case));
+        check(other.path(), &["--fix", RULES]);
+        assert_eq!(
+            doc.text,
+            std::fs::read_to_string(other.path().join(file)).unwrap(),
+            "{case}"
+        );
+        for x in &after {
+            let again = actions_for(&mut c, &uri, x);
+            assert!(
+                !again
+                    .iter()
+                    .any(|a| a["title"].as_str().unwrap().contains("gray code")),
+                "{case}: {again:?}"
+            );
+        }
+        assert_eq!(c.shutdown_and_exit().code(), Some(0));
+    }
+}

@@ -50,7 +50,7 @@ pub struct ParentHint {
     pub reset: Option<(PortRef, bool, bool)>,
     /// The source register's reset value, when it has a constant one.
     pub reset_value: Option<bool>,
-    /// `(sv, always_ff)`: the destination process kind, for the keyword in SV parents.
+    /// The destination process is `always_ff` (the keyword used in SystemVerilog parents).
     pub always_ff: bool,
     pub stages: u32,
 }

@@ -35,6 +35,10 @@ pub struct StageHint {
     pub target_years: f64,
     /// Fewest stages that meet the target (up to 10), per the model.
     pub needed: Option<u32>,
+    /// The stage before the last, when the last is an output port: the new stage goes
+    /// between them (the port keeps its name, its readers outside see one cycle more).
+    #[serde(default)]
+    pub before: Option<String>,
 }
 
 fn top_process(m: &Module, start: usize) -> Option<&Process> {
@@ -209,6 +213,21 @@ pub fn fix<'m>(
         return Err("the last stage's reset value is not known".into());
     }
     let name = h.last.as_str();
+    let sv = model.language == Language::SystemVerilog;
+    let kw = if sv && lp.kind == ProcessKind::AlwaysFf {
+        "always_ff"
+    } else {
+        "always"
+    };
+    if let Some(prev) = &h.before {
+        let clocking = Clocking {
+            clk: &clk,
+            edge,
+            reset: reset.as_ref().map(|(s, hi, e)| (s.as_str(), *hi, *e)),
+            kw,
+        };
+        return in_front_of_port(f, h, m, lp, &text, prev, sv, &clocking);
+    }
 
     // every use of the old last stage in the module: reads are redirected, writes and its
     // declaration stay; a use the model does not show (a macro, an `initial` block, a
@@ -285,7 +304,6 @@ pub fn fix<'m>(
 
     let nl = newline(&text);
     let u = indent_unit(&text);
-    let sv = model.language == Language::SystemVerilog;
     let next = h.stages + 1;
     let new = stage_name(name, next, m, &text);
 
@@ -325,11 +343,6 @@ pub fn fix<'m>(
         return Err("the last stage's process does not start its line".into());
     }
     let ind = indent_at(&text, lp.span.start);
-    let kw = if sv && lp.kind == ProcessKind::AlwaysFf {
-        "always_ff"
-    } else {
-        "always"
-    };
     let events = match &reset {
         Some((sig, _, e)) => format!("{edge} {clk} or {e} {sig}"),
         None => format!("{edge} {clk}"),
@@ -390,26 +403,197 @@ pub fn fix<'m>(
             text: new.clone(),
         });
     }
-    let outlook = if h.needed.is_some_and(|k| k <= next) {
-        format!(
-            "estimated MTBF {} with {next} stages, target {} years",
-            h.after, h.target_years
-        )
-    } else {
-        match h.needed {
-            Some(k) => format!(
-                "estimated MTBF {} with {next} stages, still below the target of {} years: {k} stages would meet it",
-                h.after, h.target_years
-            ),
-            None => format!(
-                "estimated MTBF {} with {next} stages, still below the target of {} years: no stage count up to 10 meets it",
-                h.after, h.target_years
-            ),
-        }
-    };
+    let outlook = outlook(h);
     Ok(Fix {
         title: format!(
             "Add one synchronizer stage after `{name}` (+1 `{clk}` cycle of latency; {outlook})"
+        ),
+        rule: f.rule.clone(),
+        preferred: true,
+        kind: "add-stage".into(),
+        scope: format!("{}::{}", h.file, h.module),
+        edits,
+    })
+}
+
+/// What the model expects of the longer chain, for the title (an estimate).
+fn outlook(h: &StageHint) -> String {
+    let next = h.stages + 1;
+    match h.needed {
+        Some(k) if k <= next => format!(
+            "estimated MTBF {} with {next} stages, target {} years",
+            h.after, h.target_years
+        ),
+        Some(k) => format!(
+            "estimated MTBF {} with {next} stages, still below the target of {} years: {k} stages would meet it",
+            h.after, h.target_years
+        ),
+        None => format!(
+            "estimated MTBF {} with {next} stages, still below the target of {} years: no stage count up to 10 meets it",
+            h.after, h.target_years
+        ),
+    }
+}
+
+/// Clock, edge, reset (name, active high, edge) and process keyword of the new stage.
+struct Clocking<'a> {
+    clk: &'a str,
+    edge: &'a str,
+    reset: Option<(&'a str, bool, &'a str)>,
+    kw: &'a str,
+}
+
+/// The new stage's process text, `new <= from`, indented at `ind`.
+fn stage_process(
+    c: &Clocking,
+    h: &StageHint,
+    (new, from, k): (&str, &str, u32),
+    ind: &str,
+    text: &str,
+) -> String {
+    let nl = newline(text);
+    let u = indent_unit(text);
+    let events = match c.reset {
+        Some((sig, _, e)) => format!("{} {} or {e} {sig}", c.edge, c.clk),
+        None => format!("{} {}", c.edge, c.clk),
+    };
+    let mut b = format!(
+        "{ind}// stage {k} of the `{}` synchronizer (quick fix: +1 `{}` cycle of latency){nl}",
+        h.source, c.clk
+    );
+    b.push_str(&format!("{ind}{} @({events}) begin{nl}", c.kw));
+    match c.reset {
+        Some((sig, high, _)) => {
+            let v = if h.reset_value == Some(true) {
+                "1'b1"
+            } else {
+                "1'b0"
+            };
+            let cond = if high {
+                sig.to_string()
+            } else {
+                format!("!{sig}")
+            };
+            b.push_str(&format!("{ind}{u}if ({cond}) {new} <= {v};{nl}"));
+            b.push_str(&format!("{ind}{u}else {new} <= {from};{nl}"));
+        }
+        None => b.push_str(&format!("{ind}{u}{new} <= {from};{nl}")),
+    }
+    b.push_str(&format!("{ind}end{nl}"));
+    b
+}
+
+/// The line after `at`'s line, when the item ending at `end` ends its line (a `;` there or
+/// before, then only blanks or a line comment).
+fn after_line(text: &str, start: usize, end: usize) -> Option<usize> {
+    let end = end.min(text.len());
+    let after = line_end_incl(text, end.saturating_sub(1).max(start));
+    let rest = text.get(end..after)?;
+    let code = rest.split("//").next().unwrap_or("").trim();
+    let ends = code.is_empty() || code == ";" || code.ends_with(';');
+    (ends && !rest.contains("/*")).then_some(after)
+}
+
+/// The last stage is an output port: a new stage goes between the stage before it and the
+/// port, whose loads now read the new stage; the port keeps its name and its readers.
+#[allow(clippy::too_many_arguments)]
+fn in_front_of_port(
+    f: &Finding,
+    h: &StageHint,
+    m: &Module,
+    lp: &Process,
+    text: &str,
+    prev: &str,
+    sv: bool,
+    c: &Clocking,
+) -> Result<Fix, String> {
+    let name = h.last.as_str();
+    let mut reads: Vec<(usize, usize)> = Vec::new();
+    for a in lp.assigns.iter().filter(|a| !a.in_reset) {
+        let mut w = Vec::new();
+        writes_in(&a.target, name, &mut w);
+        if !w.is_empty() {
+            reads_in(&a.rhs, prev, &mut reads);
+        }
+    }
+    reads.sort();
+    reads.dedup();
+    if reads.is_empty() {
+        return Err(format!("`{name}` does not load `{prev}`"));
+    }
+    for &(s, e) in &reads {
+        if text.get(s..e) != Some(prev) {
+            return Err(format!("`{prev}` is read inside a macro"));
+        }
+    }
+    let decl = m
+        .items
+        .iter()
+        .find_map(|it| match &it.kind {
+            ItemKind::Decl(d) if d.name == prev => {
+                Some((it.span.start.min(d.span.start), it.span.end.max(d.span.end)))
+            }
+            _ => None,
+        })
+        .ok_or(format!("`{prev}` is not declared in the module body"))?;
+    let after_decl = after_line(text, decl.0, decl.1)
+        .ok_or(format!("the declaration of `{prev}` does not end its line"))?;
+    let pend = lp.span.end.min(text.len());
+    let after_proc = after_line(text, lp.span.start, pend)
+        .ok_or("the last stage's process does not end its line")?;
+    if !text
+        .get(line_start(text, lp.span.start)..lp.span.start)
+        .is_some_and(|s| s.trim().is_empty())
+    {
+        return Err("the last stage's process does not start its line".into());
+    }
+    let nl = newline(text);
+    let new = stage_name(prev, h.stages, m, text);
+    let dind = indent_at(text, decl.0);
+    let kw = if sv { "logic" } else { "reg" };
+    let decl_text = if text[..after_decl].ends_with(['\n', '\r']) {
+        format!("{dind}{kw} {new};{nl}")
+    } else {
+        format!("{nl}{dind}{kw} {new};")
+    };
+    let mut b = String::new();
+    if !text[..after_proc].ends_with(['\n', '\r']) {
+        b.push_str(nl);
+    }
+    b.push_str(nl);
+    let ind = indent_at(text, lp.span.start);
+    b.push_str(&stage_process(c, h, (&new, prev, h.stages), &ind, text));
+    let next_line = text[after_proc..].lines().next().unwrap_or("");
+    if !next_line.trim().is_empty() && !next_line.trim_start().starts_with("endmodule") {
+        b.push_str(nl);
+    }
+    let mut edits = vec![
+        TextEdit {
+            file: h.file.clone(),
+            start: after_decl,
+            end: after_decl,
+            text: decl_text,
+        },
+        TextEdit {
+            file: h.file.clone(),
+            start: after_proc,
+            end: after_proc,
+            text: b,
+        },
+    ];
+    for (s, e) in reads {
+        edits.push(TextEdit {
+            file: h.file.clone(),
+            start: s,
+            end: e,
+            text: new.clone(),
+        });
+    }
+    Ok(Fix {
+        title: format!(
+            "Add one synchronizer stage before the output `{name}` (+1 `{}` cycle of latency; {})",
+            c.clk,
+            outlook(h)
         ),
         rule: f.rule.clone(),
         preferred: true,
@@ -463,6 +647,7 @@ mod tests {
             after: "1.00e+20 years".into(),
             target_years: 1000.0,
             needed: Some(3),
+            before: None,
         };
         let f = Finding::new("low-mtbf", Severity::Warning, Span::default(), "m");
         let files = [model.clone()];

@@ -261,7 +261,7 @@ pub(crate) fn plan(ctx: &Ctx, cx: &Crossings, f: &Finding) -> Result<GrayHint, S
     let w = sig.width.unwrap_or(1);
     if !(2..=64).contains(&w) {
         return Err(format!(
-            "`{name}` has {w} bits: gray code is offered for counters of 2 to 64 bits"
+            "`{name}` has {w} bit(s) (or a width Seam could not work out): gray code is offered for counters of 2 to 64 bits"
         ));
     }
     if in_trusted(ctx, cnt) {
@@ -569,7 +569,8 @@ pub fn fix<'m>(
                     "the width of `{q}` depends on a parameter: not rewritten automatically"
                 ));
             };
-            if (msb - lsb).unsigned_abs() + 1 != u64::from(w) {
+            let span = msb.checked_sub(lsb).map(|d| d.unsigned_abs());
+            if span.and_then(|d| d.checked_add(1)) != Some(u64::from(w)) {
                 return Err(format!("the declared width of `{q}` is not {w} bits"));
             }
             format!("[{msb}:{lsb}] ")
@@ -728,5 +729,73 @@ mod tests {
             assert_eq!((gray(v, 4) ^ gray((v + 1) & 15, 4)).count_ones(), 1);
         }
         assert_eq!(gray(u64::MAX, 64), 1u64 << 63);
+    }
+
+    const SRC: &str = "module m (input clk_a, input clk_b, input en, output reg [3:0] q);\n  reg [3:0] c;\n  always @(posedge clk_a) if (en) c <= c + 4'd1;\n  always @(posedge clk_b) q <= c;\nendmodule\n";
+
+    fn analysed(src: &str) -> (Vec<crate::model::FileModel>, crate::report::Analysis) {
+        use crate::parse::{parse_file, MacroTable, ParseOptions};
+        let macros = MacroTable::with_defines([("SYNTHESIS", None)]);
+        let r = parse_file(
+            "t.v",
+            "t.v",
+            src.as_bytes(),
+            &macros,
+            &ParseOptions::default(),
+        );
+        let models = vec![r.model];
+        let a = crate::analyze(&models, &crate::config::Config::default());
+        (models, a)
+    }
+
+    /// The plan on parsed text (sv-parser through Seam's front end), then the edits on the
+    /// text the editor has now: whole, cut anywhere or shifted by a multi-byte character
+    /// (a buffer mid-edit). Never a panic; either a reason or edits that `apply` checks.
+    #[test]
+    fn stale_or_cut_text_never_panics() {
+        let (models, a) = analysed(SRC);
+        let f = a
+            .findings
+            .iter()
+            .find(|f| matches!(f.fix, Some(super::super::FixHint::GrayCode(_))))
+            .unwrap_or_else(|| panic!("no gray-code hint: {:#?}", a.findings));
+        let Some(super::super::FixHint::GrayCode(h)) = &f.fix else {
+            unreachable!()
+        };
+        let files = super::super::in_slice(&models);
+        let fx = fix(f, h, &files, &|_| Some(SRC.to_string())).expect("a fix on the analysed text");
+        let edits: Vec<&TextEdit> = fx.edits.iter().collect();
+        let out = super::super::apply(SRC, &edits).expect("edits apply");
+        assert!(out.contains("q <= c_bin;") && out.contains("c_gray <= c ^ (c >> 1);"));
+        let mut texts: Vec<String> = (0..SRC.len()).map(|k| SRC[..k].to_string()).collect();
+        texts.extend(
+            (0..SRC.len())
+                .step_by(7)
+                .map(|k| format!("{}\u{e9}{}", &SRC[..k], &SRC[k..])),
+        );
+        for t in texts {
+            if let Ok(fx) = fix(f, h, &files, &|_| Some(t.clone())) {
+                let edits: Vec<&TextEdit> = fx.edits.iter().collect();
+                let _ = super::super::apply(&t, &edits);
+            }
+        }
+    }
+
+    /// No fix for a counter that steps by two, with the reason (the plan on parsed text).
+    #[test]
+    fn a_step_of_two_is_refused_with_the_reason() {
+        let (_, a) = analysed(&SRC.replace("c + 4'd1", "c + 4'd2"));
+        let reasons: Vec<String> = a
+            .findings
+            .iter()
+            .filter_map(|f| match &f.fix {
+                Some(super::super::FixHint::Unavailable { reason }) => Some(reason.clone()),
+                _ => None,
+            })
+            .collect();
+        assert!(
+            reasons.iter().any(|r| r.contains("`c` steps by 2")),
+            "{reasons:?}"
+        );
     }
 }

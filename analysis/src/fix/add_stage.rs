@@ -292,7 +292,7 @@ pub fn fix<'m>(
             || writes.contains(&at)
             || decl_spans.iter().any(|(s, e)| *s <= at && at < *e);
         if !known {
-            let line = text[..at].matches('\n').count() + 1;
+            let line = text.get(..at).map_or(0, |t| t.matches('\n').count()) + 1;
             return Err(format!(
                 "`{name}` is used on line {line} where the fix cannot follow it (a macro, a generate block, an initial block or a function)"
             ));
@@ -317,13 +317,19 @@ pub fn fix<'m>(
     let after_decl = line_end_incl(&text, decl_end.saturating_sub(1).max(decl.0));
     let rest = text.get(decl_end..after_decl).unwrap_or("");
     let code = rest.split("//").next().unwrap_or("").trim();
-    let ends_here =
-        code.ends_with(';') || (code.is_empty() && text[..decl_end].trim_end().ends_with(';'));
+    let ends_here = code.ends_with(';')
+        || (code.is_empty()
+            && text
+                .get(..decl_end)
+                .is_some_and(|t| t.trim_end().ends_with(';')));
     if !ends_here || rest.contains("/*") {
         return Err(format!("the declaration of `{name}` does not end its line"));
     }
     let dind = indent_at(&text, decl.0);
-    let decl_text = if text[..after_decl].ends_with(['\n', '\r']) {
+    let decl_text = if text
+        .get(..after_decl)
+        .is_some_and(|t| t.ends_with(['\n', '\r']))
+    {
         format!("{dind}{} {new};{nl}", if sv { "logic" } else { "reg" })
     } else {
         format!("{nl}{dind}{} {new};", if sv { "logic" } else { "reg" })
@@ -348,7 +354,10 @@ pub fn fix<'m>(
         None => format!("{edge} {clk}"),
     };
     let mut b = String::new();
-    if !text[..after_proc].ends_with(['\n', '\r']) {
+    if !text
+        .get(..after_proc)
+        .is_some_and(|t| t.ends_with(['\n', '\r']))
+    {
         b.push_str(nl);
     }
     b.push_str(nl);
@@ -376,7 +385,10 @@ pub fn fix<'m>(
     }
     b.push_str(&format!("{ind}end{nl}"));
     // keep a blank line between the new process and the item after it
-    let next_line = text[after_proc..].lines().next().unwrap_or("");
+    let next_line = text
+        .get(after_proc..)
+        .and_then(|t| t.lines().next())
+        .unwrap_or("");
     if !next_line.trim().is_empty() && !next_line.trim_start().starts_with("endmodule") {
         b.push_str(nl);
     }
@@ -551,19 +563,28 @@ fn in_front_of_port(
     let new = stage_name(prev, h.stages, m, text);
     let dind = indent_at(text, decl.0);
     let kw = if sv { "logic" } else { "reg" };
-    let decl_text = if text[..after_decl].ends_with(['\n', '\r']) {
+    let decl_text = if text
+        .get(..after_decl)
+        .is_some_and(|t| t.ends_with(['\n', '\r']))
+    {
         format!("{dind}{kw} {new};{nl}")
     } else {
         format!("{nl}{dind}{kw} {new};")
     };
     let mut b = String::new();
-    if !text[..after_proc].ends_with(['\n', '\r']) {
+    if !text
+        .get(..after_proc)
+        .is_some_and(|t| t.ends_with(['\n', '\r']))
+    {
         b.push_str(nl);
     }
     b.push_str(nl);
     let ind = indent_at(text, lp.span.start);
     b.push_str(&stage_process(c, h, (&new, prev, h.stages), &ind, text));
-    let next_line = text[after_proc..].lines().next().unwrap_or("");
+    let next_line = text
+        .get(after_proc..)
+        .and_then(|t| t.lines().next())
+        .unwrap_or("");
     if !next_line.trim().is_empty() && !next_line.trim_start().starts_with("endmodule") {
         b.push_str(nl);
     }

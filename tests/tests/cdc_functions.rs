@@ -145,13 +145,7 @@ fn function_interpreter_agrees_with_simulation() {
             name: format!("ev_functions.y{i}"),
             loc: Default::default(),
         };
-        let ev = Eval {
-            ctx: &ctx,
-            var: x,
-            x: xv,
-            inline: true,
-            frame: None,
-        };
+        let ev = Eval::new(&ctx, x, xv);
         let w = if i == 8 { 5 } else { 4 };
         assert_eq!(ev.eval(&e, w, 0), Some(want), "y{i} at x = {xv}");
         checked += 1;

@@ -391,13 +391,7 @@ fn evaluator_agrees_with_simulation() {
             name: name.clone(),
             loc: Default::default(),
         };
-        let ev = Eval {
-            ctx: &ctx,
-            var: x,
-            x: xv,
-            inline: true,
-            frame: None,
-        };
+        let ev = Eval::new(&ctx, x, xv);
         let got = ev.eval(&e, exprs[i as usize].1, 0);
         assert_eq!(got, Some(want), "{} at x = {xv}", exprs[i as usize].0);
         checked += 1;

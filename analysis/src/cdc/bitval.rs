@@ -9,6 +9,9 @@
 use crate::design::graph::{const_of, Driver};
 use crate::design::netlist::SigId;
 use crate::design::Ctx;
+use std::cell::RefCell;
+use std::collections::HashMap;
+
 use crate::model::{Expr, Select};
 
 pub use super::funcall::Frame;
@@ -36,9 +39,24 @@ pub struct Eval<'c, 'a> {
     pub inline: bool,
     /// The variables of the function being run (`%name` keys), if any.
     pub frame: Option<&'c Frame>,
+    /// Values of inlined nets already computed for this `x` (a net read by several bits or
+    /// several expressions is evaluated once).
+    pub(super) memo: RefCell<HashMap<SigId, u64>>,
 }
 
 impl<'c, 'a> Eval<'c, 'a> {
+    /// Evaluation with `var` = `x`, inlining combinational nets.
+    pub fn new(ctx: &'c Ctx<'a>, var: SigId, x: u64) -> Self {
+        Eval {
+            ctx,
+            var,
+            x,
+            inline: true,
+            frame: None,
+            memo: RefCell::default(),
+        }
+    }
+
     fn sig_width(&self, s: SigId) -> Option<u32> {
         let w = self.ctx.n.sigs[s].width.unwrap_or(1);
         (w <= 64).then_some(w)
@@ -311,6 +329,9 @@ impl<'c, 'a> Eval<'c, 'a> {
         if !self.inline || self.ctx.g.is_reg(s) || d > 40 {
             return None;
         }
+        if let Some(v) = self.memo.borrow().get(&s) {
+            return Some(*v);
+        }
         let w = self.sig_width(s)?;
         let ds = self.ctx.g.drivers.get(&s)?;
         let mut v = 0u64;
@@ -336,6 +357,7 @@ impl<'c, 'a> Eval<'c, 'a> {
             }
             v |= bit? << b;
         }
+        self.memo.borrow_mut().insert(s, v);
         Some(v)
     }
 }

@@ -87,6 +87,7 @@ impl<'c, 'a> Eval<'c, 'a> {
             x: self.x,
             inline: self.inline,
             frame: Some(&frame),
+            memo: RefCell::default(),
         };
         callee.exec(&f.body, &frame, d)?;
         if let Some(outer) = self.frame {

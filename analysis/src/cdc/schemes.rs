@@ -616,23 +616,30 @@ pub fn gray_of(ctx: &Ctx, g: SigId) -> Option<Gray> {
         }
     }
     let f = |x: u64| -> Option<u64> {
-        let ev = Eval {
-            ctx,
-            var: v,
-            x,
-            inline: true,
-            frame: None,
-        };
+        let ev = Eval::new(ctx, v, x);
+        // one evaluation per assignment (a vector assignment drives many bits)
+        let mut vals: Vec<(*const FAssign, u64)> = Vec::new();
         let mut out = 0u64;
         for (b, (a, off)) in per_bit.iter().enumerate() {
-            let cw = ev.selfw(&a.target)?.max(ev.selfw(&a.rhs)?);
-            let val = ev.eval(&a.rhs, cw, 0)?;
+            let key: *const FAssign = *a;
+            let val = match vals.iter().find(|(k, _)| *k == key) {
+                Some((_, v)) => *v,
+                None => {
+                    let cw = ev.selfw(&a.target)?.max(ev.selfw(&a.rhs)?);
+                    let v = ev.eval(&a.rhs, cw, 0)?;
+                    vals.push((key, v));
+                    v
+                }
+            };
             out |= ((val >> off) & 1) << b;
         }
         Some(out)
     };
     let full = if w >= 64 { u64::MAX } else { (1u64 << w) - 1 };
-    let samples: Vec<u64> = if w <= 16 {
+    // every value up to 16 bits; a design with functions runs a body per value, so there
+    // every value up to 12 bits (editor latency), a fixed sample above
+    let exhaustive = if ctx.n.funcs.is_empty() { 16 } else { 12 };
+    let samples: Vec<u64> = if w <= exhaustive {
         (0..=full).collect()
     } else {
         let mut v: Vec<u64> = (0..4096).collect();
@@ -644,8 +651,13 @@ pub fn gray_of(ctx: &Ctx, g: SigId) -> Option<Gray> {
         v
     };
     let mut changed = false;
+    // f(x + 1) of one sample is f(x) of the next when the samples are consecutive
+    let mut next: Option<(u64, u64)> = None;
     for &x in &samples {
-        let fx = f(x)?;
+        let fx = match next {
+            Some((nx, fv)) if nx == x => fv,
+            _ => f(x)?,
+        };
         if v == g {
             // gray counter: each next state differs from the present one in at most one bit
             if (fx ^ x).count_ones() > 1 {
@@ -653,7 +665,9 @@ pub fn gray_of(ctx: &Ctx, g: SigId) -> Option<Gray> {
             }
             changed |= fx != x;
         } else {
-            let fy = f(x.wrapping_add(1) & full)?;
+            let y = x.wrapping_add(1) & full;
+            let fy = f(y)?;
+            next = Some((y, fy));
             if (fx ^ fy).count_ones() > 1 {
                 return None;
             }

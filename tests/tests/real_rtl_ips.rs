@@ -35,7 +35,12 @@ fn run_ip(top: &str, clocks_resets: &[(&str, &str)], extra: &str) -> Run {
     run_ip_in(&opentitan(), top, clocks_resets, extra)
 }
 
-fn run_ip_in(base: &std::path::Path, top: &str, clocks_resets: &[(&str, &str)], extra: &str) -> Run {
+fn run_ip_in(
+    base: &std::path::Path,
+    top: &str,
+    clocks_resets: &[(&str, &str)],
+    extra: &str,
+) -> Run {
     let base = base.to_path_buf();
     let fl = filelist_for(&base, top).unwrap_or_else(|| panic!("{top}: not in the sources"));
     let work = tempfile::tempdir().unwrap();
@@ -256,8 +261,22 @@ fn crossing_primitives_are_clean() {
     let ibex = real_root().join("pythondata_cpu_ibex");
     let two = |src: &'static str, dst: &'static str| {
         [
-            (src, if src == "clk_wr_i" { "rst_wr_ni" } else { "rst_src_ni" }),
-            (dst, if dst == "clk_rd_i" { "rst_rd_ni" } else { "rst_dst_ni" }),
+            (
+                src,
+                if src == "clk_wr_i" {
+                    "rst_wr_ni"
+                } else {
+                    "rst_src_ni"
+                },
+            ),
+            (
+                dst,
+                if dst == "clk_rd_i" {
+                    "rst_rd_ni"
+                } else {
+                    "rst_dst_ni"
+                },
+            ),
         ]
     };
     let cases: [(&str, [(&str, &str); 2], &str); 4] = [

@@ -297,7 +297,9 @@ impl<'c, 'a> Eval<'c, 'a> {
                 text.bytes().all(|c| c.is_ascii_digit() || c == b'_') || text.contains("'s")
             }
             Expr::Unary { op, arg } if matches!(op.as_str(), "-" | "+" | "~") => self.signed(arg),
-            Expr::Binary { op, lhs, rhs } if matches!(op.as_str(), "+" | "-" | "*" | "&" | "|" | "^") => {
+            Expr::Binary { op, lhs, rhs }
+                if matches!(op.as_str(), "+" | "-" | "*" | "&" | "|" | "^") =>
+            {
                 self.signed(lhs) && self.signed(rhs)
             }
             Expr::Ternary { then, other, .. } => self.signed(then) && self.signed(other),

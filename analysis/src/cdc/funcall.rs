@@ -65,7 +65,10 @@ impl<'c, 'a> Eval<'c, 'a> {
         }
         let mut slots = HashMap::new();
         let mut put = |v: &FVar, val: u64| {
-            slots.insert(v.key.clone(), (val & mask(v.width), v.width, v.lsb, v.signed));
+            slots.insert(
+                v.key.clone(),
+                (val & mask(v.width), v.width, v.lsb, v.signed),
+            );
         };
         for (a, v) in args.iter().zip(&f.args) {
             let w = self.selfw(a)?.max(v.width);

@@ -413,7 +413,10 @@ fn declare_function(n: &mut Netlist, inst: usize, f: &Function, scope: &Scope) {
         let (width, lsb) = match v.atom {
             Some(w) if v.packed.is_empty() => (w, 0),
             Some(_) => return None,
-            None => (eval::width(&v.packed, &scope.env)?, eval::lsb(&v.packed, &scope.env)),
+            None => (
+                eval::width(&v.packed, &scope.env)?,
+                eval::lsb(&v.packed, &scope.env),
+            ),
         };
         (width <= 64).then(|| FVar {
             key: format!("%{}", v.name),
@@ -451,7 +454,13 @@ fn declare_function(n: &mut Netlist, inst: usize, f: &Function, scope: &Scope) {
     );
 }
 
-fn resolve_stmt(n: &mut Netlist, inst: usize, s: &Stmt, scope: &Scope, names: &HashSet<&str>) -> Stmt {
+fn resolve_stmt(
+    n: &mut Netlist,
+    inst: usize,
+    s: &Stmt,
+    scope: &Scope,
+    names: &HashSet<&str>,
+) -> Stmt {
     let ex = |e: &Expr, n: &mut Netlist| {
         let mut e = e.clone();
         mark_locals(&mut e, names);
@@ -459,7 +468,9 @@ fn resolve_stmt(n: &mut Netlist, inst: usize, s: &Stmt, scope: &Scope, names: &H
         e
     };
     let all = |v: &[Stmt], n: &mut Netlist| -> Vec<Stmt> {
-        v.iter().map(|s| resolve_stmt(n, inst, s, scope, names)).collect()
+        v.iter()
+            .map(|s| resolve_stmt(n, inst, s, scope, names))
+            .collect()
     };
     match s {
         Stmt::Assign { target, rhs } => Stmt::Assign {
@@ -471,7 +482,11 @@ fn resolve_stmt(n: &mut Netlist, inst: usize, s: &Stmt, scope: &Scope, names: &H
             then: all(then, n),
             other: all(other, n),
         },
-        Stmt::Case { sel, items, default } => Stmt::Case {
+        Stmt::Case {
+            sel,
+            items,
+            default,
+        } => Stmt::Case {
             sel: ex(sel, n),
             items: items
                 .iter()

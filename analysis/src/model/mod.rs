@@ -319,7 +319,10 @@ pub struct Function {
 #[serde(tag = "stmt", rename_all = "snake_case")]
 pub enum Stmt {
     /// A blocking assignment (`x op= y` is kept as `x = x op y`).
-    Assign { target: Expr, rhs: Expr },
+    Assign {
+        target: Expr,
+        rhs: Expr,
+    },
     If {
         cond: Expr,
         then: Vec<Stmt>,
@@ -336,9 +339,13 @@ pub enum Stmt {
         step: Vec<Stmt>,
         body: Vec<Stmt>,
     },
-    Return { value: Option<Expr> },
+    Return {
+        value: Option<Expr>,
+    },
     /// Anything else: executing it gives up.
-    Unsupported { what: String },
+    Unsupported {
+        what: String,
+    },
 }
 
 impl Module {

@@ -60,10 +60,8 @@ impl<'a> Extractor<'a> {
                             for id in find_all(RefNode::from(&p.nodes.4), |c| {
                                 matches!(c, RefNode::PortIdentifier(_)).then(|| c.clone())
                             }) {
-                                let v = self.func_var(
-                                    RefNode::from(&**p),
-                                    self.str(id).to_string(),
-                                );
+                                let v =
+                                    self.func_var(RefNode::from(&**p), self.str(id).to_string());
                                 args.push(v);
                             }
                         }
@@ -125,7 +123,12 @@ impl<'a> Extractor<'a> {
 
     /// A declaration in a function or block: its variables become locals, initialisers
     /// assignments at that point.
-    fn block_decl(&self, d: &'a BlockItemDeclaration, locals: &mut Vec<FuncVar>, body: &mut Vec<Stmt>) {
+    fn block_decl(
+        &self,
+        d: &'a BlockItemDeclaration,
+        locals: &mut Vec<FuncVar>,
+        body: &mut Vec<Stmt>,
+    ) {
         let BlockItemDeclaration::Data(dd) = d else {
             body.push(Stmt::Unsupported {
                 what: "a parameter or let declaration in a function".into(),
@@ -159,7 +162,12 @@ impl<'a> Extractor<'a> {
         }
     }
 
-    fn fstmts(&self, list: &'a [FunctionStatementOrNull], locals: &mut Vec<FuncVar>, out: &mut Vec<Stmt>) {
+    fn fstmts(
+        &self,
+        list: &'a [FunctionStatementOrNull],
+        locals: &mut Vec<FuncVar>,
+        out: &mut Vec<Stmt>,
+    ) {
         for s in list {
             if let FunctionStatementOrNull::Statement(fs) = s {
                 self.fstmt(&fs.nodes.0, locals, out);
@@ -183,9 +191,7 @@ impl<'a> Extractor<'a> {
                     target: self.expr(RefNode::from(&v.nodes.0)),
                     rhs: self.expr(RefNode::from(&v.nodes.3)),
                 }),
-                BlockingAssignment::OperatorAssignment(o) => {
-                    out.push(self.operator_assign(o))
-                }
+                BlockingAssignment::OperatorAssignment(o) => out.push(self.operator_assign(o)),
                 _ => out.push(unsupported("an assignment to a pattern")),
             },
             StatementItem::IncOrDecExpression(b) => {
@@ -219,7 +225,9 @@ impl<'a> Extractor<'a> {
                             for vd in d.nodes.0.contents() {
                                 for (id, _, e) in vd.nodes.2.contents() {
                                     let name = self.str(RefNode::from(id)).to_string();
-                                    locals.push(self.func_var(RefNode::from(&vd.nodes.1), name.clone()));
+                                    locals.push(
+                                        self.func_var(RefNode::from(&vd.nodes.1), name.clone()),
+                                    );
                                     init_s.push(Stmt::Assign {
                                         target: Expr::Ident {
                                             name,

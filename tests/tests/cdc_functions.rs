@@ -43,12 +43,21 @@ fn findings(dir: &Path) -> Vec<(String, u64)> {
 const TOML: &str = "[clocks]\nclk_snd = {}\nclk_up = {}\n\n[inputs]\nput = \"clk_snd\"\nlevel = \"clk_snd\"\nrst_snd_n = \"clk_snd\"\ntake = \"clk_up\"\nrst_up_n = \"clk_up\"\n";
 
 fn run_fifo(text: &str) -> Vec<(String, u64)> {
+    run_fifo_linted(text, true)
+}
+
+/// `lint`: also require `verilator --lint-only -Wall` (off for encoders Verilator cannot
+/// unroll, such as an endless loop).
+fn run_fifo_linted(text: &str, lint: bool) -> Vec<(String, u64)> {
     let d = tempfile::tempdir().expect("tempdir");
     let p = d.path().join("tg_fn_fifo.sv");
     std::fs::write(&p, text).expect("write");
     std::fs::write(d.path().join("seam.toml"), TOML).expect("toml");
     // outside references: both tools accept the design
     iverilog_compiles(std::slice::from_ref(&p), &[]).expect("iverilog");
+    if !lint {
+        return findings(d.path());
+    }
     let o = Command::new("verilator")
         .args(["--lint-only", "-Wall"])
         .arg(&p)
@@ -151,4 +160,28 @@ fn function_interpreter_agrees_with_simulation() {
         checked += 1;
     }
     assert_eq!(checked, 16 * N, "simulation output: {sim}");
+}
+
+/// Encoders Seam cannot run (a loop that never ends, a call of itself, a `casez`) leave the
+/// bus unproven: a `multibit-crossing`, never a hang or a crash, and never "clean".
+#[test]
+fn functions_that_cannot_be_run_leave_the_bus_unproven() {
+    let text = std::fs::read_to_string(fixture("tg_fn_fifo.sv")).expect("fixture");
+    let body = "for (int i = 0; i < PW - 1; i++) to_gray[i] = b[i] ^ b[i+1];\n    to_gray[PW-1] = b[PW-1];";
+    assert!(text.contains(body));
+    let variants = [
+        // the loop condition never fails (the statement budget stops it)
+        "for (int i = 0; i >= 0; i++) to_gray[0] = b[0];\n    to_gray = b ^ (b >> 1);",
+        // calls itself
+        "to_gray = (b == 0) ? '0 : to_gray(b - 1'b1) ^ b;",
+        // casez is outside the statement IR
+        "casez (b)\n      default: to_gray = b ^ (b >> 1);\n    endcase",
+    ];
+    for v in variants {
+        let f = run_fifo_linted(&text.replace(body, v), false);
+        assert!(
+            f.iter().any(|(r, _)| r == "multibit-crossing"),
+            "{v}: {f:?}"
+        );
+    }
 }

@@ -844,6 +844,18 @@ mod tests {
     }
 
     #[test]
+    fn cast_to_an_expression_width() {
+        let e = parse_expr("(W-1)'(x + 1)");
+        let Expr::Call { name, args } = &e else {
+            panic!("{e:?}")
+        };
+        assert_eq!(name, "(W - 1)'");
+        assert_eq!(args.len(), 1);
+        // a parenthesised expression without a cast stays what it is
+        assert!(matches!(parse_expr("(a) + b"), Expr::Binary { .. }));
+    }
+
+    #[test]
     fn concat_shift_is_structured() {
         let e = parse_expr("{s[0], d}");
         let Expr::Concat { parts } = &e else {

@@ -1,6 +1,7 @@
 //! Shared helpers for Seam's end-to-end tests: locating the `seam` binary and fixtures,
 //! running outside tools (iverilog, Verilator) and parsing fixtures in-process.
 
+pub mod fixcase;
 pub mod lsp_client;
 pub mod real;
 use std::path::{Path, PathBuf};

@@ -14,80 +14,12 @@
 use std::path::{Path, PathBuf};
 use std::process::Command;
 
+use seam_tests::fixcase::*;
 use seam_tests::lsp_client::*;
 use seam_tests::*;
 use serde_json::{json, Value};
 
 const RULE: &str = "low-mtbf";
-
-fn copy_case(src: &Path) -> tempfile::TempDir {
-    let d = tempfile::tempdir().unwrap();
-    for e in std::fs::read_dir(src).unwrap() {
-        let p = e.unwrap().path();
-        std::fs::copy(&p, d.path().join(p.file_name().unwrap())).unwrap();
-    }
-    d
-}
-
-fn rtl_files(dir: &Path) -> Vec<PathBuf> {
-    let mut v: Vec<PathBuf> = std::fs::read_dir(dir)
-        .unwrap()
-        .map(|e| e.unwrap().path())
-        .filter(|p| matches!(p.extension().and_then(|e| e.to_str()), Some("v" | "sv")))
-        .collect();
-    v.sort();
-    v
-}
-
-fn texts(dir: &Path) -> Vec<(PathBuf, String)> {
-    rtl_files(dir)
-        .into_iter()
-        .map(|p| {
-            let t = std::fs::read_to_string(&p).unwrap();
-            (p, t)
-        })
-        .collect()
-}
-
-/// `seam check --format json [extra]` → (findings, stderr).
-fn check(dir: &Path, extra: &[&str]) -> (Vec<Value>, String) {
-    let mut args = vec!["check", "--format", "json"];
-    args.extend_from_slice(extra);
-    let out = seam(&args, dir);
-    let stderr = String::from_utf8_lossy(&out.stderr).to_string();
-    assert!(
-        out.status.code() == Some(0) || out.status.code() == Some(1),
-        "seam check failed: {stderr}"
-    );
-    let v: Value =
-        serde_json::from_slice(&out.stdout).unwrap_or_else(|e| panic!("not JSON ({e}): {stderr}"));
-    (v["findings"].as_array().unwrap().clone(), stderr)
-}
-
-fn of_rule<'a>(fs: &'a [Value], rule: &str) -> Vec<&'a Value> {
-    fs.iter().filter(|f| f["rule"] == rule).collect()
-}
-
-fn keys(fs: &[Value]) -> std::collections::BTreeSet<(String, String)> {
-    fs.iter()
-        .map(|f| {
-            (
-                f["rule"].as_str().unwrap().to_string(),
-                f["message"].as_str().unwrap().to_string(),
-            )
-        })
-        .collect()
-}
-
-fn cases(kind: &str) -> Vec<PathBuf> {
-    let mut v: Vec<PathBuf> = std::fs::read_dir(fixtures().join("fix").join(kind))
-        .unwrap()
-        .map(|e| e.unwrap().path())
-        .filter(|p| p.is_dir())
-        .collect();
-    v.sort();
-    v
-}
 
 fn is_word(c: char) -> bool {
     c.is_ascii_alphanumeric() || c == '_'
@@ -423,7 +355,8 @@ fn latency_after_the_fix_is_one_more_cycle_by_simulation() {
         let tbf = d.path().join("tb_latency.sv");
         std::fs::write(&tbf, tb).unwrap();
         let sim = d.path().join("sim.out");
-        let files = rtl_files(d.path());
+        let mut files = rtl_files(d.path());
+        files.push(tbf.clone());
         let o = Command::new("iverilog")
             .args(["-g2012", "-o"])
             .arg(&sim)
@@ -477,6 +410,7 @@ fn every_reader_sees_the_signal_one_cycle_later_by_simulation() {
             .args(["-g2012", "-o"])
             .arg(&sim)
             .args(rtl_files(dir))
+            .arg(dir.join("tb_readers.sv"))
             .output()
             .unwrap();
         assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));

@@ -8,82 +8,13 @@
 //! faster clock and a module whose instances do not all cross now have fixes of their own
 //! (`fix_pulse_sync.rs`, `fix_parent_sync.rs`).
 
-use std::collections::BTreeSet;
-use std::path::{Path, PathBuf};
+use std::path::PathBuf;
 use std::process::Command;
 
+use seam_tests::fixcase::*;
 use seam_tests::*;
 
-fn copy_case(src: &Path) -> tempfile::TempDir {
-    let d = tempfile::tempdir().unwrap();
-    for e in std::fs::read_dir(src).unwrap() {
-        let p = e.unwrap().path();
-        std::fs::copy(&p, d.path().join(p.file_name().unwrap())).unwrap();
-    }
-    d
-}
-
-fn rtl_files(dir: &Path) -> Vec<PathBuf> {
-    let mut v: Vec<PathBuf> = std::fs::read_dir(dir)
-        .unwrap()
-        .map(|e| e.unwrap().path())
-        .filter(|p| matches!(p.extension().and_then(|e| e.to_str()), Some("v" | "sv")))
-        .collect();
-    v.sort();
-    v
-}
-
-fn texts(dir: &Path) -> Vec<(PathBuf, String)> {
-    rtl_files(dir)
-        .into_iter()
-        .map(|p| {
-            let t = std::fs::read_to_string(&p).unwrap();
-            (p, t)
-        })
-        .collect()
-}
-
-/// `seam check --format json [extra]` → (findings, stderr).
-fn check(dir: &Path, extra: &[&str]) -> (Vec<serde_json::Value>, String) {
-    let mut args = vec!["check", "--format", "json"];
-    args.extend_from_slice(extra);
-    let out = seam(&args, dir);
-    let stderr = String::from_utf8_lossy(&out.stderr).to_string();
-    assert!(
-        out.status.code() == Some(0) || out.status.code() == Some(1),
-        "seam check failed: {stderr}"
-    );
-    let v: serde_json::Value =
-        serde_json::from_slice(&out.stdout).unwrap_or_else(|e| panic!("not JSON ({e}): {stderr}"));
-    (v["findings"].as_array().unwrap().clone(), stderr)
-}
-
-fn of_rule<'a>(fs: &'a [serde_json::Value], rule: &str) -> Vec<&'a serde_json::Value> {
-    fs.iter().filter(|f| f["rule"] == rule).collect()
-}
-
-fn keys(fs: &[serde_json::Value]) -> BTreeSet<(String, String)> {
-    fs.iter()
-        .map(|f| {
-            (
-                f["rule"].as_str().unwrap().to_string(),
-                f["message"].as_str().unwrap().to_string(),
-            )
-        })
-        .collect()
-}
-
 const RULE: &str = "unsynchronized-crossing";
-
-fn cases(kind: &str) -> Vec<PathBuf> {
-    let mut v: Vec<PathBuf> = std::fs::read_dir(fixtures().join("fix").join(kind))
-        .unwrap()
-        .map(|e| e.unwrap().path())
-        .filter(|p| p.is_dir())
-        .collect();
-    v.sort();
-    v
-}
 
 #[test]
 fn every_positive_fixture_is_fixed_and_still_compiles() {
@@ -328,8 +259,7 @@ fn latency_of_the_inserted_synchronizer_by_simulation() {
         let tbf = d.path().join("tb_latency.sv");
         std::fs::write(&tbf, tb).unwrap();
         let sim = d.path().join("sim.out");
-        let mut files = rtl_files(d.path());
-        files.retain(|p| p != &tbf);
+        let files = rtl_files(d.path());
         let o = Command::new("iverilog")
             .args(["-g2012", "-o"])
             .arg(&sim)

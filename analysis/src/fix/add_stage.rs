@@ -384,37 +384,14 @@ pub fn fix<'m>(
         None => b.push_str(&format!("{ind}{u}{new} <= {name};{nl}")),
     }
     b.push_str(&format!("{ind}end{nl}"));
-    // keep a blank line between the new process and the item after it
-    let next_line = text
-        .get(after_proc..)
-        .and_then(|t| t.lines().next())
-        .unwrap_or("");
-    if !next_line.trim().is_empty() && !next_line.trim_start().starts_with("endmodule") {
-        b.push_str(nl);
-    }
-
-    let mut edits = vec![
-        TextEdit {
-            file: h.file.clone(),
-            start: after_decl,
-            end: after_decl,
-            text: decl_text,
-        },
-        TextEdit {
-            file: h.file.clone(),
-            start: after_proc,
-            end: after_proc,
-            text: b,
-        },
-    ];
-    for (s, e) in reads {
-        edits.push(TextEdit {
-            file: h.file.clone(),
-            start: s,
-            end: e,
-            text: new.clone(),
-        });
-    }
+    let edits = stage_edits(
+        &h.file,
+        &text,
+        (after_decl, decl_text),
+        (after_proc, b),
+        &reads,
+        &new,
+    );
     let outlook = outlook(h);
     Ok(Fix {
         title: format!(
@@ -581,35 +558,14 @@ fn in_front_of_port(
     b.push_str(nl);
     let ind = indent_at(text, lp.span.start);
     b.push_str(&stage_process(c, h, (&new, prev, h.stages), &ind, text));
-    let next_line = text
-        .get(after_proc..)
-        .and_then(|t| t.lines().next())
-        .unwrap_or("");
-    if !next_line.trim().is_empty() && !next_line.trim_start().starts_with("endmodule") {
-        b.push_str(nl);
-    }
-    let mut edits = vec![
-        TextEdit {
-            file: h.file.clone(),
-            start: after_decl,
-            end: after_decl,
-            text: decl_text,
-        },
-        TextEdit {
-            file: h.file.clone(),
-            start: after_proc,
-            end: after_proc,
-            text: b,
-        },
-    ];
-    for (s, e) in reads {
-        edits.push(TextEdit {
-            file: h.file.clone(),
-            start: s,
-            end: e,
-            text: new.clone(),
-        });
-    }
+    let edits = stage_edits(
+        &h.file,
+        text,
+        (after_decl, decl_text),
+        (after_proc, b),
+        &reads,
+        &new,
+    );
     Ok(Fix {
         title: format!(
             "Add one synchronizer stage before the output `{name}` (+1 `{}` cycle of latency; {})",
@@ -622,6 +578,38 @@ fn in_front_of_port(
         scope: format!("{}::{}", h.file, h.module),
         edits,
     })
+}
+
+/// The edits of an added stage: its declaration, its process (with a blank line before the
+/// item after it), and every moved read renamed to the new stage.
+fn stage_edits(
+    file: &str,
+    text: &str,
+    (after_decl, decl_text): (usize, String),
+    (after_proc, mut process): (usize, String),
+    reads: &[(usize, usize)],
+    new: &str,
+) -> Vec<TextEdit> {
+    let nl = newline(text);
+    let next_line = text
+        .get(after_proc..)
+        .and_then(|t| t.lines().next())
+        .unwrap_or("");
+    if !next_line.trim().is_empty() && !next_line.trim_start().starts_with("endmodule") {
+        process.push_str(nl);
+    }
+    let edit = |start: usize, end: usize, text: String| TextEdit {
+        file: file.to_string(),
+        start,
+        end,
+        text,
+    };
+    let mut edits = vec![
+        edit(after_decl, after_decl, decl_text),
+        edit(after_proc, after_proc, process),
+    ];
+    edits.extend(reads.iter().map(|&(s, e)| edit(s, e, new.to_string())));
+    edits
 }
 
 #[cfg(test)]

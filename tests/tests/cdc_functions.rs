@@ -185,3 +185,20 @@ fn functions_that_cannot_be_run_leave_the_bus_unproven() {
         );
     }
 }
+
+/// A correct encoder that runs a long loop per value, over 12-bit pointers (4,096 values):
+/// the check stops at its statement cap and reports the bus as not proven, instead of
+/// stalling the editor for a minute.
+#[test]
+fn a_slow_encoder_hits_the_cap_and_stays_unproven() {
+    let text = std::fs::read_to_string(fixture("tg_fn_fifo.sv")).expect("fixture");
+    let slow = text
+        .replace("parameter int AW = 3", "parameter int AW = 11")
+        .replace(
+            "for (int i = 0; i < PW - 1; i++) to_gray[i]",
+            "for (int i = 0; i < 30000; i++) to_gray[0] = b[0];\n    for (int i = 0; i < PW - 1; i++) to_gray[i]",
+        );
+    assert_ne!(slow, text);
+    let f = run_fifo_linted(&slow, false);
+    assert!(f.iter().any(|(r, _)| r == "multibit-crossing"), "{f:?}");
+}

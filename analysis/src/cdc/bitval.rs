@@ -42,6 +42,8 @@ pub struct Eval<'c, 'a> {
     /// Values of inlined nets already computed for this `x` (a net read by several bits or
     /// several expressions is evaluated once).
     pub(super) memo: RefCell<HashMap<SigId, u64>>,
+    /// Function statements executed so far (callers that evaluate many values cap the sum).
+    pub spent: std::cell::Cell<u32>,
 }
 
 impl<'c, 'a> Eval<'c, 'a> {
@@ -54,6 +56,7 @@ impl<'c, 'a> Eval<'c, 'a> {
             inline: true,
             frame: None,
             memo: RefCell::default(),
+            spent: Default::default(),
         }
     }
 

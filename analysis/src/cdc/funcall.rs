@@ -91,11 +91,16 @@ impl<'c, 'a> Eval<'c, 'a> {
             inline: self.inline,
             frame: Some(&frame),
             memo: RefCell::default(),
+            spent: Default::default(),
         };
-        callee.exec(&f.body, &frame, d)?;
+        let start = frame.budget.get();
+        let ran = callee.exec(&f.body, &frame, d);
+        let used = start - frame.budget.get();
+        self.spent.set(self.spent.get().saturating_add(used));
         if let Some(outer) = self.frame {
             outer.budget.set(frame.budget.get());
         }
+        ran?;
         Some(frame.get(&f.ret.key)?.0)
     }
 

@@ -545,6 +545,9 @@ fn encoder_var(ctx: &Ctx, e: &Expr, out: &mut BTreeSet<SigId>, depth: u32) -> Op
     Some(())
 }
 
+/// Function statements one gray check may execute over all counter values.
+const MAX_FUNCTION_STEPS: u32 = 4_000_000;
+
 /// `g` carries gray code of a counter (see the module comment).
 pub fn gray_of(ctx: &Ctx, g: SigId) -> Option<Gray> {
     let w = width(ctx, g);
@@ -615,6 +618,7 @@ pub fn gray_of(ctx: &Ctx, g: SigId) -> Option<Gray> {
             return None;
         }
     }
+    let spent = std::cell::Cell::new(0u32);
     let f = |x: u64| -> Option<u64> {
         let ev = Eval::new(ctx, v, x);
         // one evaluation per assignment (a vector assignment drives many bits)
@@ -632,6 +636,11 @@ pub fn gray_of(ctx: &Ctx, g: SigId) -> Option<Gray> {
                 }
             };
             out |= ((val >> off) & 1) << b;
+        }
+        // functions run per value: a slow one gives up (not proven) instead of stalling
+        spent.set(spent.get().saturating_add(ev.spent.get()));
+        if spent.get() > MAX_FUNCTION_STEPS {
+            return None;
         }
         Some(out)
     };

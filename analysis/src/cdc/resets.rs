@@ -521,9 +521,23 @@ fn trace_expr(
             trace_expr(ctx, lhs, inv, true, out, depth + 1, budget);
             trace_expr(ctx, rhs, inv, true, out, depth + 1, budget);
         }
-        Expr::Ternary { cond, then, other } => {
-            for x in [cond, then, other] {
-                trace_expr(ctx, x, inv, true, out, depth + 1, budget);
+        // a mux whose select `[constants]` pins is a wire to the chosen input (scan muxes)
+        Expr::Ternary { cond, then, other } => match ctx.pinned(cond) {
+            Some(0) => trace_expr(ctx, other, inv, logic, out, depth + 1, budget),
+            Some(_) => trace_expr(ctx, then, inv, logic, out, depth + 1, budget),
+            None => {
+                for x in [cond, then, other] {
+                    trace_expr(ctx, x, inv, true, out, depth + 1, budget);
+                }
+            }
+        },
+        Expr::Call { name, args } if name == "$seam_clock_mux" && args.len() > 1 => {
+            match ctx
+                .pinned(&args[0])
+                .and_then(|v| args.get(usize::try_from(v).ok()? + 1))
+            {
+                Some(chosen) => trace_expr(ctx, chosen, inv, logic, out, depth + 1, budget),
+                None => reads(ctx, e, inv, out, depth, budget),
             }
         }
         Expr::Const { .. } => {

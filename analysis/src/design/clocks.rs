@@ -201,20 +201,86 @@ impl<'a> Ctx<'a> {
         }
     }
 
-    /// Value of a `[constants]`-pinned select, if any.
+    /// Value of a select under the `[constants]` pins, if it has one: a pinned net, a
+    /// constant, or logic over them (`mode[2] == pkg::On`), followed through plain
+    /// assignments. A select of a net pinned to 0 is 0 whatever its element width.
     pub fn pinned(&self, e: &Expr) -> Option<u64> {
-        if let Expr::Const { value, .. } = e {
-            return *value;
+        u64::try_from(self.pinned_at(e, 0)?).ok()
+    }
+
+    fn pinned_at(&self, e: &Expr, depth: u32) -> Option<i64> {
+        if depth > 32 {
+            return None;
         }
+        let leaf = |x: &Expr| -> Option<Expr> {
+            let v = self.pinned_at(x, depth + 1)?;
+            Some(Expr::Const {
+                text: v.to_string(),
+                value: u64::try_from(v).ok(),
+                width: None,
+            })
+        };
+        let folded = match e {
+            Expr::Const { value, .. } => return value.and_then(|v| i64::try_from(v).ok()),
+            Expr::Ident { .. } => return self.pinned_net(e, depth),
+            Expr::Select { base, sel } => {
+                let b = self.pinned_at(base, depth + 1)?;
+                if b == 0 {
+                    return Some(0);
+                }
+                Expr::Select {
+                    base: Box::new(leaf(base)?),
+                    sel: sel.clone(),
+                }
+            }
+            Expr::Unary { op, arg } => Expr::Unary {
+                op: op.clone(),
+                arg: Box::new(leaf(arg)?),
+            },
+            Expr::Binary { op, lhs, rhs } => Expr::Binary {
+                op: op.clone(),
+                lhs: Box::new(leaf(lhs)?),
+                rhs: Box::new(leaf(rhs)?),
+            },
+            Expr::Ternary { cond, then, other } => {
+                return match self.pinned_at(cond, depth + 1)? {
+                    0 => self.pinned_at(other, depth + 1),
+                    _ => self.pinned_at(then, depth + 1),
+                }
+            }
+            _ => return None,
+        };
+        super::eval::eval(&folded, &Default::default())
+    }
+
+    /// A whole net: its `[constants]` pin, else the value of its one plain assignment.
+    fn pinned_net(&self, e: &Expr, depth: u32) -> Option<i64> {
         let s = self.g.sig(e)?;
-        let name = &self.n.sigs[s].name;
-        let rel = name.split_once('.').map(|(_, r)| r).unwrap_or(name);
-        let v = self
+        let sig = &self.n.sigs[s];
+        let rel = sig
+            .name
+            .split_once('.')
+            .map(|(_, r)| r)
+            .unwrap_or(&sig.name);
+        if let Some(v) = self
             .config
             .constants
             .get(rel)
-            .or_else(|| self.config.constants.get(&self.n.sigs[s].local))?;
-        crate::model::expr::literal_value(v).0
+            .or_else(|| self.config.constants.get(&sig.local))
+        {
+            return crate::model::expr::literal_value(v)
+                .0
+                .and_then(|v| i64::try_from(v).ok());
+        }
+        match self.g.drivers.get(&s).map(|d| d.as_slice()) {
+            Some([Driver::Comb(ci)]) if self.g.sig(&self.n.combs[*ci].target) == Some(s) => {
+                let c = &self.n.combs[*ci];
+                matches!(c.target, Expr::Ident { .. })
+                    .then(|| self.pinned_at(&c.rhs, depth + 1))
+                    .flatten()
+            }
+            _ => None,
+        }
     }
 }
 

@@ -7,6 +7,7 @@ pub mod clocks;
 pub mod eval;
 pub mod graph;
 pub mod netlist;
+pub mod packages;
 
 use std::cell::RefCell;
 use std::collections::{BTreeSet, HashMap};

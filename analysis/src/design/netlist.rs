@@ -5,6 +5,7 @@
 use std::collections::{HashMap, HashSet};
 
 use super::eval::{self, Env};
+use super::packages::PackageConsts;
 use crate::config::{Cell, Config};
 use crate::model::*;
 
@@ -101,6 +102,7 @@ pub struct Netlist {
 pub struct ModuleIndex<'m> {
     pub files: &'m [FileModel],
     pub by_name: HashMap<&'m str, (usize, usize)>,
+    pub packages: PackageConsts,
 }
 
 impl<'m> ModuleIndex<'m> {
@@ -111,7 +113,11 @@ impl<'m> ModuleIndex<'m> {
                 by_name.entry(m.name.as_str()).or_insert((fi, mi));
             }
         }
-        ModuleIndex { files, by_name }
+        ModuleIndex {
+            files,
+            by_name,
+            packages: PackageConsts::new(files),
+        }
     }
 
     pub fn get(&self, name: &str) -> Option<&'m Module> {
@@ -179,7 +185,7 @@ pub fn elaborate(index: &ModuleIndex, config: &Config, tops: &[&str]) -> Netlist
             trusted: false,
             span: m.name_span.clone(),
         });
-        let env = params_env(m, &[], &Env::new(), &[]);
+        let env = params_env(index, m, &[], &Env::new());
         elab_module(index, config, &mut n, inst, m, fi, env, 0);
         for p in &m.ports {
             if matches!(p.direction, Some(Direction::Input) | Some(Direction::Inout)) {
@@ -192,9 +198,10 @@ pub fn elaborate(index: &ModuleIndex, config: &Config, tops: &[&str]) -> Netlist
     n
 }
 
-/// Parameter values of an instance: defaults, overridden by the instance's assignments.
-fn params_env(m: &Module, overrides: &[Connection], parent_env: &Env, _pre: &[()]) -> Env {
-    let mut env = Env::new();
+/// Parameter values of an instance: defaults, overridden by the instance's assignments, over
+/// the package constants the module sees.
+fn params_env(index: &ModuleIndex, m: &Module, overrides: &[Connection], parent_env: &Env) -> Env {
+    let mut env = index.packages.base_env(m);
     let overridable: Vec<&Param> = m.params.iter().filter(|p| !p.local).collect();
     let mut given: HashMap<String, i64> = HashMap::new();
     for (i, c) in overrides.iter().enumerate() {
@@ -850,7 +857,7 @@ fn instantiate(
     let span = i.name_span.clone();
     match (def_module, &cell) {
         (Some(m), _) => {
-            let env = params_env(m, &i.params, &scope.env, &[]);
+            let env = params_env(index, m, &i.params, &scope.env);
             let (fi, _) = def.unwrap_or((0, 0));
             elab_module(index, config, n, child, m, fi, env, depth + 1);
             for (port, expr) in conns {

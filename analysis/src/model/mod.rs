@@ -37,7 +37,7 @@ pub struct FileModel {
     pub language: Language,
     pub modules: Vec<Module>,
     /// Packages defined in this file (compile order puts them first).
-    pub packages: Vec<String>,
+    pub packages: Vec<Package>,
     /// Problems found while reading this file (syntax errors, limits).
     pub problems: Vec<Problem>,
     /// `// seam: allow(rule) reason` comments.
@@ -73,6 +73,16 @@ pub enum ModuleKind {
     Program,
 }
 
+/// A package's named constants (parameters and enumeration members, in source order).
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct Package {
+    pub name: String,
+    pub params: Vec<Param>,
+    /// `p::*` or `p::x` for each `import` inside the package.
+    pub imports: Vec<String>,
+    pub span: Span,
+}
+
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct Module {
     pub name: String,
@@ -85,6 +95,9 @@ pub struct Module {
     pub ports: Vec<Port>,
     pub items: Vec<Item>,
     pub attributes: Vec<Attribute>,
+    /// `p::*` or `p::x`: the module's imports, then those of the file before it.
+    #[serde(default)]
+    pub imports: Vec<String>,
 }
 
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]

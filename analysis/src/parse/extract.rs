@@ -9,6 +9,7 @@ use sv_parser::{
     NodeEvent, RefNode, RefNodes, Statement, StatementItem, StatementOrNull, SyntaxTree,
 };
 
+mod constants;
 mod function;
 
 use super::position::LineIndex;
@@ -101,9 +102,11 @@ impl<'a> Extractor<'a> {
         }
     }
 
-    pub fn run(self) -> (Vec<Module>, Vec<String>) {
+    pub fn run(self) -> (Vec<Module>, Vec<Package>) {
         let mut modules = Vec::new();
         let mut packages = Vec::new();
+        // compilation-unit imports seen so far: they apply to the modules after them
+        let mut unit_imports: Vec<String> = Vec::new();
         let root: RefNode = self.tree.into_iter().next().expect("tree has a root");
         let mut all = vec![root.clone()];
         // the iterator includes the root itself; walk skips it, so look at it first
@@ -111,23 +114,23 @@ impl<'a> Extractor<'a> {
         let mut visit = |n: RefNode<'a>| -> Walk {
             match n {
                 RefNode::ModuleDeclarationAnsi(_) | RefNode::ModuleDeclarationNonansi(_) => {
-                    modules.push(self.module(n, ModuleKind::Module));
+                    modules.push(self.module(n, ModuleKind::Module, &unit_imports));
                     Walk::Skip
                 }
                 RefNode::InterfaceDeclarationAnsi(_) | RefNode::InterfaceDeclarationNonansi(_) => {
-                    modules.push(self.module(n, ModuleKind::Interface));
+                    modules.push(self.module(n, ModuleKind::Interface, &unit_imports));
                     Walk::Skip
                 }
                 RefNode::ProgramDeclarationAnsi(_) | RefNode::ProgramDeclarationNonansi(_) => {
-                    modules.push(self.module(n, ModuleKind::Program));
+                    modules.push(self.module(n, ModuleKind::Program, &unit_imports));
                     Walk::Skip
                 }
                 RefNode::PackageDeclaration(_) => {
-                    if let Some(id) = find_first(n, |c| {
-                        matches!(c, RefNode::PackageIdentifier(_)).then(|| c.clone())
-                    }) {
-                        packages.push(self.str(id).to_string());
-                    }
+                    packages.push(self.package(n));
+                    Walk::Skip
+                }
+                RefNode::PackageImportDeclaration(_) => {
+                    unit_imports.extend(self.imports(n));
                     Walk::Skip
                 }
                 _ => Walk::Descend,
@@ -229,7 +232,7 @@ impl<'a> Extractor<'a> {
 
     // ------------------------------------------------------------ modules
 
-    fn module(&self, n: RefNode<'a>, kind: ModuleKind) -> Module {
+    fn module(&self, n: RefNode<'a>, kind: ModuleKind, unit_imports: &[String]) -> Module {
         let header = find_first(n.clone(), |c| match c {
             RefNode::ModuleAnsiHeader(_)
             | RefNode::ModuleNonansiHeader(_)
@@ -259,7 +262,10 @@ impl<'a> Extractor<'a> {
             ports: vec![],
             items: vec![],
             attributes: vec![],
+            imports: vec![],
         };
+        m.imports = self.imports(n.clone());
+        m.imports.extend(unit_imports.iter().cloned());
         if let Some(h) = header.clone() {
             m.attributes = find_all(h.clone(), |c| match c {
                 RefNode::AttrSpec(_) => Some(c.clone()),
@@ -539,6 +545,15 @@ impl<'a> Extractor<'a> {
         out
     }
 
+    fn push_enum_members(&self, n: RefNode<'a>, out: &mut Vec<Item>) {
+        for p in self.enum_members(n) {
+            out.push(Item {
+                span: p.span.clone(),
+                kind: ItemKind::Param(p),
+            });
+        }
+    }
+
     fn push(&self, out: &mut Vec<Item>, n: RefNode<'a>, kind: ItemKind) {
         out.push(Item {
             span: self.span_of(n),
@@ -644,9 +659,14 @@ impl<'a> Extractor<'a> {
                     };
                     self.push(out, d, ItemKind::Decl(decl));
                 }
+                self.push_enum_members(c, out);
                 Walk::Skip
             }
-            RefNode::DataDeclaration(_) => Walk::Skip, // typedefs, imports
+            RefNode::DataDeclaration(_) => {
+                // typedefs (their enumeration members are constants) and imports
+                self.push_enum_members(c, out);
+                Walk::Skip
+            }
             RefNode::GenvarDeclaration(_) => {
                 for g in find_all(c.clone(), |x| {
                     matches!(x, RefNode::GenvarIdentifier(_)).then(|| x.clone())
